@@ -65,6 +65,7 @@ UNIT_ALIASES: Final[dict[str, tuple[str, ...]]] = {
     "h": ("h", "hr", "hrs", "hours", "hour"),
     "K/W": ("K/W", "°C/W", "degC/W", "C/W"),
     "%": ("%",),
+    "C": ("C",),  # electric charge (gate charge, recovered charge); "C" alone is °C where a temperature is expected
 }
 
 #: What each kind is called in messages.
@@ -82,6 +83,7 @@ KIND_NAMES: Final[dict[str | None, str]] = {
     "h": "a duration in hours (h)",
     "K/W": "a thermal resistance (K/W)",
     "%": "a percentage (%)",
+    "C": "a charge (C)",
     None: "a plain number",
 }
 
@@ -101,7 +103,18 @@ _CODE_LETTERS: Final[dict[str, dict[str, float]]] = {
     "Hz": {"k": 1e3, "M": 1e6},
 }
 
-_UNIT_TO_KIND: Final[dict[str, str]] = {alias: kind for kind, aliases in UNIT_ALIASES.items() for alias in aliases}
+_UNIT_KINDS: Final[dict[str, tuple[str, ...]]] = {}
+for _kind, _aliases in UNIT_ALIASES.items():
+    for _alias in _aliases:
+        _UNIT_KINDS[_alias] = _UNIT_KINDS.get(_alias, ()) + (_kind,)
+#: The first kind a symbol belongs to (for messages); ``_kind_of`` resolves shared symbols.
+_UNIT_TO_KIND: Final[dict[str, str]] = {alias: kinds[0] for alias, kinds in _UNIT_KINDS.items()}
+
+
+def _kind_of(symbol: str, expected: str | None) -> str:
+    """The kind of a unit symbol, preferring the expected kind when the symbol is shared ("C")."""
+    kinds = _UNIT_KINDS[symbol]
+    return expected if expected in kinds else kinds[0]
 # Longest symbols first so that "mOhm" is read as m + Ohm, not as "m" + "Ohm" failing on "O".
 _UNITS_BY_LENGTH: Final = sorted(_UNIT_TO_KIND, key=len, reverse=True)
 _PREFIXES_BY_LENGTH: Final = sorted(PREFIXES, key=len, reverse=True)
@@ -229,7 +242,7 @@ def _split_suffix(suffix: str, text: str, kind: str | None) -> float | None:
         if suffix.endswith(symbol):
             candidate_rest = suffix[: -len(symbol)].rstrip()
             if candidate_rest == "" or candidate_rest in PREFIXES:
-                unit_kind = _UNIT_TO_KIND[symbol]
+                unit_kind = _kind_of(symbol, kind)
                 # A bare "K", "M", "m" may be a prefix rather than a unit (kelvin, ...).
                 if candidate_rest == "" and symbol in PREFIXES and unit_kind != kind:
                     unit_kind = None
@@ -269,7 +282,7 @@ def _parse_code(text: str, kind: str | None) -> float | None:
         if letter in ("R", "r", "L") and kind != "ohm":
             raise _fail(text, kind, "the R code is for resistances")
         return None
-    if unit and _UNIT_TO_KIND.get(unit) != kind:
+    if unit and (unit not in _UNIT_KINDS or _kind_of(unit, kind) != kind):
         if unit in _UNIT_TO_KIND:
             raise _fail(text, kind, f"the unit says {_expected(_UNIT_TO_KIND[unit])}")
         return None
