@@ -11,8 +11,8 @@ warnings, so the pipeline can collect them beside the figures.
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass, field
-from typing import Sequence
 
 import numpy as np
 
@@ -156,8 +156,9 @@ def split_bank_current(
     v_rms = float(np.sqrt(2.0 * np.sum(np.abs(v_k) ** 2)))
 
     # Peak-to-peak from C and ESR only (ESL spike at ideal steps excluded, see BankSplit).
-    y_noesl = np.array([CapacitorModel(cp.ref, cp.capacitance_f, cp.esr_ohm, 0.0).admittance(omega)
-                        for cp in caps]).sum(axis=0)
+    y_noesl = np.array(
+        [CapacitorModel(cp.ref, cp.capacitance_f, cp.esr_ohm, 0.0).admittance(omega) for cp in caps]
+    ).sum(axis=0)
     v_k_noesl = c / y_noesl * _lanczos_sigma(n)
     n_points = max(8 * n, 1024)
     spectrum = np.zeros(n_points // 2 + 1, dtype=complex)
@@ -307,8 +308,9 @@ def _curve_value(curve: Curve, x: float, name: str, unit: str, notes: list[str])
     xs = np.array([p[0] for p in pts])
     ys = np.array([p[1] for p in pts])
     if x < xs[0] or x > xs[-1]:
-        notes.append(f"{name} {x:g} {unit} is outside the catalog curve ({xs[0]:g}..{xs[-1]:g} {unit}); "
-                     "end value held")
+        notes.append(
+            f"{name} {x:g} {unit} is outside the catalog curve ({xs[0]:g}..{xs[-1]:g} {unit}); end value held"
+        )
     return float(np.interp(x, xs, ys))
 
 
@@ -345,18 +347,22 @@ def ripple_rating(
     else:
         fm = 1.0
         if not math.isclose(f, f_rated, rel_tol=0.05):
-            notes.append(f"no ripple_freq curve: multiplier 1 assumed at {f:g} Hz (rating quoted at "
-                         f"{f_rated:g} Hz)")
+            notes.append(
+                f"no ripple_freq curve: multiplier 1 assumed at {f:g} Hz (rating quoted at {f_rated:g} Hz)"
+            )
     if temp_curve:
         tm = _curve_value(temp_curve, t, "temperature", "°C", notes)
     else:
         tm = 1.0
         if t > t_rated:
-            notes.append(f"{t:g} °C is above the rated {t_rated:g} °C and no ripple_temp curve is given: "
-                         "the rating does not apply")
+            notes.append(
+                f"{t:g} °C is above the rated {t_rated:g} °C and no ripple_temp curve is given: "
+                "the rating does not apply"
+            )
         else:
-            notes.append("no ripple_temp curve: multiplier 1 assumed (conservative below the rated "
-                         "temperature)")
+            notes.append(
+                "no ripple_temp curve: multiplier 1 assumed (conservative below the rated temperature)"
+            )
     return RippleRating(i_rated * fm * tm, fm, tm, tuple(notes))
 
 

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import itertools
 import os
 import re
 import shutil
@@ -124,12 +125,18 @@ def bank_netlist(wave: PiecewiseLinear, caps, periods: int = 30, with_esl: bool 
         for t, y in zip(wave.t[:-1], wave.y[:-1]):
             pts.append(f"{k * wave.period + t:.12g} {y:.12g}")
     pts.append(f"{periods * wave.period:.12g} {wave.y[-1]:.12g}")
-    lines = [f"* capacitor bank driven by a flyback secondary current ({'with' if with_esl else 'no'} ESL)",
-             "I1 0 n PWL(" + " ".join(pts) + ")", "Rleak n 0 1G"]
+    lines = [
+        f"* capacitor bank driven by a flyback secondary current ({'with' if with_esl else 'no'} ESL)",
+        "I1 0 n PWL(" + " ".join(pts) + ")",
+        "Rleak n 0 1G",
+    ]
     for i, c in enumerate(caps, 1):
-        lines += [f"Vam{i} n a{i} 0", f"R{i} a{i} b{i} {c.esr_ohm:.12g}",
-                  f"L{i} b{i} c{i} {c.esl_h if with_esl else 0:.12g}" if with_esl else f"Vsh{i} b{i} c{i} 0",
-                  f"C{i} c{i} 0 {c.capacitance_f:.12g}"]
+        lines += [
+            f"Vam{i} n a{i} 0",
+            f"R{i} a{i} b{i} {c.esr_ohm:.12g}",
+            f"L{i} b{i} c{i} {c.esl_h if with_esl else 0:.12g}" if with_esl else f"Vsh{i} b{i} c{i} 0",
+            f"C{i} c{i} 0 {c.capacitance_f:.12g}",
+        ]
     t_end = periods * wave.period
     t_from = (periods - 5) * wave.period
     lines.append(f".tran 2n {t_end:.12g} 0 2n uic")
@@ -145,12 +152,13 @@ def bank_netlist(wave: PiecewiseLinear, caps, periods: int = 30, with_esl: bool 
 def run_ngspice(exe: str, deck: str, tmp_path: Path) -> dict[str, float]:
     path = tmp_path / "bank.cir"
     path.write_text(deck)
-    out = subprocess.run([exe, "-b", str(path)], capture_output=True, text=True, timeout=60)
-    found = dict(re.findall(r"^(\w+)\s*=\s*([-+0-9.eE]+)", out.stdout, flags=re.M))
+    out = subprocess.run([exe, "-b", str(path)], check=False, capture_output=True, text=True, timeout=60)
+    found = dict(re.findall(r"^(\w+)\s*=\s*([-+0-9.eE]+)", out.stdout, flags=re.MULTILINE))
     assert found, f"no measurements in ngspice output:\n{out.stdout}\n{out.stderr}"
     return {k.lower(): float(v) for k, v in found.items()}
 
 
+@pytest.mark.ngspice
 @pytest.mark.parametrize("with_esl", [True, False])
 def test_bank_sharing_matches_ngspice_transient(ngspice, tmp_path, with_esl):
     # Reference: ngspice-39 transient of the same bank driven by the same PWL current
@@ -189,7 +197,7 @@ def test_catalog_curve_is_interpolated_and_not_an_approximation():
 
 def test_class1_keeps_its_capacitance():
     # EIA RS-198 class I (C0G = 0 ± 30 ppm/K), derating-standards.md §6, READ (secondary).
-    c, note, approx = effective_capacitance(1e-9, 50.0, 50.0, "C0G")
+    c, _note, approx = effective_capacitance(1e-9, 50.0, 50.0, "C0G")
     assert c == 1e-9 and not approx
 
 
@@ -209,7 +217,7 @@ def test_generic_model_falls_with_bias_and_orders_the_classes():
     assert 1.0 > fr["X7R"] > fr["X5R"] > fr["Y5V"] > 0.0
     vs = np.linspace(0, 25, 11)
     seq = [effective_capacitance(1.0, v, 25.0, "X5R")[0] for v in vs]
-    assert all(a > b for a, b in zip(seq, seq[1:]))
+    assert all(a > b for a, b in itertools.pairwise(seq))
     # Scenario 2 of demo-scenarios.md: a 25 V X7R on a 15 V rail "loses most of its capacitance"
     # only in the catalog curve; the generic model must at least show a substantial loss.
     assert effective_capacitance(1.0, 15.0, 25.0, "X7R")[0] < 0.8
