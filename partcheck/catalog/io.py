@@ -1,0 +1,678 @@
+"""Catalog exchange files: read and validate CSV, TSV, XLSX and JSON; write CSV and JSON.
+
+Reading is two steps that touch no database: :func:`read_table` turns a file into header and
+cells (with the line of every row), :func:`validate` turns those into complete column mappings
+of SI floats, collecting *every* problem before raising one :class:`CatalogInputError`.  The
+store writes the result in one transaction, so a file with one bad cell writes nothing.
+
+Curves travel in a side file: for ``X.csv`` the curves are read from ``X.curves.csv`` beside it
+(columns ``part_number,curve,x,y``; ``X.curves.tsv`` / ``X.curves.xlsx`` for the other
+formats, or a sheet named ``curves`` in the workbook).  In JSON each part carries a ``curves``
+object: ``{"dc_bias": [[0.0, 1.0], [12.0, 0.55]]}``.
+
+Export is deterministic: parts sorted by part number, columns in :data:`FIELDS` order, floats
+written with ``repr`` so that every value reads back to the identical float.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import IO, Iterable
+
+from ..errors import CatalogInputError, QuantityError
+from ..units import format_quantity, parse_quantity
+from .models import (
+    CATEGORIES,
+    CATEGORY_FIELDS,
+    CURVE_COLUMNS,
+    CURVES,
+    DIELECTRICS,
+    FIELDS,
+    STATUSES,
+    Curve,
+    PartRecord,
+)
+
+#: How many problems an error message lists before "... and N more".
+MAX_LISTED = 20
+
+#: File formats by extension.
+FORMATS = {".csv": "csv", ".tsv": "tsv", ".txt": "tsv", ".xlsx": "xlsx", ".json": "json"}
+
+FORMAT_NAME = "partcheck-catalog"
+
+
+@dataclass(frozen=True)
+class Problem:
+    """One bad cell (or header, or row) of an import file."""
+
+    message: str
+    line: int | None = None
+    column: str | None = None
+    key: str | None = None
+    file: str | None = None  # set when the problem is in another file (the curve side file)
+
+    def where(self) -> str:
+        parts = [self.file] if self.file else []
+        if self.line is not None:
+            parts.append(f"line {self.line}")
+        if self.key is not None:
+            parts.append(self.key)
+        if self.column is not None:
+            parts.append(f"column {self.column!r}")
+        return ", ".join(parts)
+
+
+@dataclass
+class Table:
+    """Cells of one file or sheet as read: the header and each row with its line number."""
+
+    file: str
+    header: list[str]
+    rows: list[list[object]]
+    lines: list[int | None]
+    header_line: int | None = 1
+    keys: list[str | None] | None = None  # JSON: "parts[3]" per row
+    curves: list[tuple[str, str, object, object, int | None, str | None]] | None = None  # JSON curves
+
+
+@dataclass
+class Validated:
+    """A validated import: complete column mappings (SI floats) and curves, nothing written yet."""
+
+    file: str
+    records: list[dict[str, object]]
+    lines: list[int | None]
+    keys: list[str | None]
+    curves: dict[str, dict[str, Curve]] | None  # None: no curve data given (existing curves stay)
+    curves_file: str | None = None
+    extra: list[Problem] = field(default_factory=list)
+
+
+def raise_problems(file: str, problems: list[Problem], verb: str = "imported") -> None:
+    """Raise one :class:`CatalogInputError` listing ``problems`` (sorted by line), if any."""
+    if not problems:
+        return
+    problems = sorted(problems, key=lambda p: (p.file or "", p.line or 0, p.key or "", p.column or ""))
+    if len(problems) == 1:
+        p = problems[0]
+        exc = CatalogInputError(
+            f"{p.message}; nothing was {verb}", file=p.file or file, line=p.line, column=p.column, key=p.key
+        )
+    else:
+        listed = "\n".join(f"  {p.where()}: {p.message}" for p in problems[:MAX_LISTED])
+        more = f"\n  ... and {len(problems) - MAX_LISTED} more" if len(problems) > MAX_LISTED else ""
+        exc = CatalogInputError(f"{len(problems)} problems, nothing was {verb}:\n{listed}{more}", file=file)
+    exc.problems = problems  # type: ignore[attr-defined]
+    raise exc
+
+
+def closest(name: str, choices: Iterable[str], cutoff: float = 60.0) -> str | None:
+    """The choice closest to ``name`` (rapidfuzz ratio), or None when nothing is near."""
+    from rapidfuzz import fuzz, process
+
+    hit = process.extractOne(name, list(choices), scorer=fuzz.ratio, score_cutoff=cutoff)
+    return hit[0] if hit else None
+
+
+def unknown_column_message(name: str, valid: Iterable[str]) -> str:
+    valid = list(valid)
+    near = closest(name.lower(), valid)
+    hint = f"; did you mean {near!r}?" if near else ";"
+    return f"unknown column {name!r}{hint} valid columns are: {', '.join(valid)}"
+
+
+# --------------------------------------------------------------------------------------------
+# Reading files into tables
+# --------------------------------------------------------------------------------------------
+
+
+def file_format(path: str | Path) -> str:
+    """``csv``, ``tsv``, ``xlsx`` or ``json`` from the file's extension."""
+    suffix = Path(path).suffix.lower()
+    if suffix not in FORMATS:
+        raise CatalogInputError(
+            f"cannot tell the format from the extension {suffix or '(none)'!r}; "
+            "expected .csv, .tsv, .xlsx or .json",
+            file=path,
+        )
+    return FORMATS[suffix]
+
+
+def curves_path(path: str | Path) -> Path:
+    """The curve side file that belongs to catalog file ``path`` (``X.csv`` → ``X.curves.csv``)."""
+    path = Path(path)
+    return path.with_name(f"{path.stem}.curves{path.suffix}")
+
+
+def _read_text(path: Path) -> str:
+    try:
+        return path.read_text(encoding="utf-8-sig")
+    except FileNotFoundError:
+        raise CatalogInputError("file not found", file=path) from None
+    except IsADirectoryError:
+        raise CatalogInputError("is a directory, expected a catalog file", file=path) from None
+    except UnicodeDecodeError as exc:
+        line = path.read_bytes()[: exc.start].count(b"\n") + 1
+        raise CatalogInputError("is not UTF-8 text; save it as 'CSV UTF-8'", file=path, line=line) from None
+
+
+def _read_delimited(path: Path, delimiter: str) -> Table:
+    text = _read_text(path)
+    reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter, strict=True)
+    header: list[str] | None = None
+    header_line = 1
+    rows: list[list[object]] = []
+    lines: list[int | None] = []
+    previous = 0
+    try:
+        for cells in reader:
+            start = previous + 1
+            previous = reader.line_num
+            if not cells or all(not c.strip() for c in cells):
+                continue
+            if header is None:
+                header, header_line = cells, start
+                continue
+            rows.append(cells)  # type: ignore[arg-type]
+            lines.append(start)
+    except csv.Error as exc:
+        raise CatalogInputError(f"is not valid {'CSV' if delimiter == ',' else 'TSV'}: {exc}", file=path,
+                                line=reader.line_num) from None
+    if header is None:
+        raise CatalogInputError("the file is empty; expected a header row such as 'part_number,category,...'",
+                                file=path)
+    return Table(str(path), [h.strip() for h in header], rows, lines, header_line)
+
+
+def _xlsx_cell(value: object) -> object:
+    if isinstance(value, str) or value is None or isinstance(value, (int, float)):
+        return value
+    return f"<{type(value).__name__} {value}>"  # dates and formulas' errors fail validation visibly
+
+
+def _read_xlsx(path: Path, sheet: str | None = None) -> Table | None:
+    try:
+        from openpyxl import load_workbook
+    except ImportError:  # pragma: no cover - openpyxl is a dependency
+        raise CatalogInputError("reading .xlsx needs the openpyxl package", file=path) from None
+    try:
+        book = load_workbook(path, read_only=True, data_only=True)
+    except FileNotFoundError:
+        raise CatalogInputError("file not found", file=path) from None
+    except Exception as exc:  # openpyxl raises many kinds for a file that is not a workbook
+        raise CatalogInputError(f"is not a readable .xlsx workbook ({exc})", file=path) from None
+    try:
+        if sheet is not None:
+            if sheet not in book.sheetnames:
+                return None
+            ws = book[sheet]
+        else:
+            ws = book.worksheets[0]
+        header: list[str] | None = None
+        header_line: int | None = 1
+        rows: list[list[object]] = []
+        lines: list[int | None] = []
+        for number, values in enumerate(ws.iter_rows(values_only=True), start=1):
+            cells = [_xlsx_cell(v) for v in values]
+            if all(c is None or (isinstance(c, str) and not c.strip()) for c in cells):
+                continue
+            if header is None:
+                header = ["" if c is None else str(c).strip() for c in cells]
+                while header and header[-1] == "":
+                    header.pop()
+                header_line = number
+                continue
+            rows.append(cells)
+            lines.append(number)
+    finally:
+        book.close()
+    if header is None:
+        raise CatalogInputError("the sheet is empty; expected a header row", file=path)
+    return Table(str(path), header, rows, lines, header_line)
+
+
+def _read_json(path: Path) -> Table:
+    try:
+        doc = json.loads(_read_text(path), parse_constant=lambda c: c)  # keep NaN/Infinity as text: rejected later
+    except json.JSONDecodeError as exc:
+        raise CatalogInputError(f"is not valid JSON: {exc.msg}", file=path, line=exc.lineno) from None
+    parts = doc.get("parts") if isinstance(doc, dict) else doc
+    if not isinstance(parts, list):
+        raise CatalogInputError('expected a JSON object with a "parts" list', file=path)
+    header: list[str] = []
+    seen: set[str] = set()
+    for item in parts:
+        if isinstance(item, dict):
+            for k in item:
+                if k != "curves" and k not in seen:
+                    seen.add(k)
+                    header.append(k)
+    rows: list[list[object]] = []
+    keys: list[str | None] = []
+    curves: list[tuple[str, str, object, object, int | None, str | None]] = []
+    problems: list[Problem] = []
+    for i, item in enumerate(parts):
+        key = f"parts[{i}]"
+        if not isinstance(item, dict):
+            problems.append(Problem("expected an object with the part's columns", key=key))
+            continue
+        rows.append([item.get(h) for h in header])
+        keys.append(key)
+        item_curves = item.get("curves") or {}
+        if not isinstance(item_curves, dict):
+            problems.append(Problem('"curves" must be an object such as {"dc_bias": [[0, 1.0], [12, 0.55]]}',
+                                    key=f"{key}.curves"))
+            continue
+        for name, points in item_curves.items():
+            if not isinstance(points, list):
+                problems.append(Problem("expected a list of [x, y] points", key=f"{key}.curves.{name}"))
+                continue
+            for j, point in enumerate(points):
+                pkey = f"{key}.curves.{name}[{j}]"
+                if not (isinstance(point, list) and len(point) == 2):
+                    problems.append(Problem("expected an [x, y] pair", key=pkey))
+                    continue
+                pn = item.get("part_number")
+                curves.append(("" if _is_empty(pn) else _text_cell(pn), str(name), point[0], point[1], None, pkey))
+    raise_problems(str(path), problems)
+    return Table(str(path), header, rows, [None] * len(rows), None, keys, curves)
+
+
+def read_table(path: str | Path) -> Table:
+    """Read the cells of a catalog file (CSV, TSV, XLSX or JSON by extension)."""
+    path = Path(path)
+    fmt = file_format(path)
+    if fmt == "csv":
+        return _read_delimited(path, ",")
+    if fmt == "tsv":
+        return _read_delimited(path, "\t")
+    if fmt == "xlsx":
+        table = _read_xlsx(path)
+        assert table is not None
+        return table
+    return _read_json(path)
+
+
+def read_curve_table(path: str | Path) -> Table | None:
+    """The curve side file (or ``curves`` sheet) of catalog file ``path``, None when there is none."""
+    path = Path(path)
+    fmt = file_format(path)
+    if fmt == "json":
+        return None
+    side = curves_path(path)
+    if side.exists():
+        return read_table(side)
+    if fmt == "xlsx":
+        return _read_xlsx(path, sheet="curves")
+    return None
+
+
+# --------------------------------------------------------------------------------------------
+# Validation
+# --------------------------------------------------------------------------------------------
+
+_NOT_FINITE = frozenset({"nan", "+nan", "-nan", "inf", "+inf", "-inf", "infinity", "+infinity", "-infinity"})
+
+
+def _is_empty(cell: object) -> bool:
+    return cell is None or (isinstance(cell, str) and not cell.strip())
+
+
+def parse_cell(cell: object, kind: str | None) -> float:
+    """One numeric cell as an SI float; plain numbers take a fast path with the same result."""
+    if isinstance(cell, str):
+        text = cell.strip()
+        if text.lower() in _NOT_FINITE:
+            raise QuantityError(f"{cell!r} is not a number; NaN and infinite values are not allowed")
+        if "_" not in text:
+            try:
+                value = float(text)  # what parse_quantity returns for a plain number, 100x faster
+            except ValueError:
+                pass
+            else:
+                if math.isfinite(value):
+                    return value + 0.0  # -0.0 → 0.0: databases do not keep the sign of zero
+    return parse_quantity(cell, kind) + 0.0  # type: ignore[arg-type]
+
+
+def _check_value(name: str, value: float, cell: object) -> str | None:
+    """Why ``value`` cannot be a value of column ``name`` (None when it can)."""
+    spec = FIELDS[name]
+    if spec.positive and not value > 0:
+        return f"{cell!r} is not allowed: {name} must be greater than zero"
+    if spec.minimum is not None and value < spec.minimum:
+        return f"{cell!r} is below absolute zero" if spec.kind == "degC" else f"{cell!r} is below {spec.minimum}"
+    if spec.maximum is not None and value > spec.maximum:
+        msg = (f"{cell!r} is {format_quantity(value, spec.kind)}, more than the plausible "
+               f"{format_quantity(spec.maximum, spec.kind)}")
+        if spec.kind == "%" and not (isinstance(cell, str) and "%" in cell):
+            msg += "; a number without '%' is a fraction (write '10%' for ten percent)"
+        return msg
+    return None
+
+
+def _choice_message(what: str, text: str, choices: Iterable[str]) -> str:
+    choices = list(choices)
+    near = closest(text, choices)
+    hint = f"; did you mean {near!r}?" if near else ";"
+    return f"unknown {what} {text!r}{hint} expected one of {', '.join(choices)}"
+
+
+def _header(table: Table, valid: Iterable[str], problems: list[Problem]) -> list[str | None]:
+    """Canonical column names of ``table.header`` (None for a bad one, which is reported)."""
+    valid = list(valid)
+    names: list[str | None] = []
+    seen: dict[str, int] = {}
+    for position, raw in enumerate(table.header):
+        name = str(raw).strip().lower()
+        if name == "":
+            names.append(None)
+            problems.append(Problem(f"column {position + 1} has no name in the header", table.header_line))
+            continue
+        if name not in valid:
+            names.append(None)
+            msg = unknown_column_message(str(raw).strip(), valid)
+            if ";" in str(raw) and "," not in str(raw):
+                msg += " (the file seems to be separated by ';'; the catalog format uses ',')"
+            problems.append(Problem(msg, table.header_line, str(raw).strip()))
+            continue
+        if name in seen:
+            names.append(None)
+            problems.append(Problem(f"column {name!r} appears twice in the header", table.header_line, name))
+            continue
+        seen[name] = position
+        names.append(name)
+    return names
+
+
+def _where(table: Table, i: int) -> tuple[int | None, str | None]:
+    return table.lines[i], (table.keys[i] if table.keys else None)
+
+
+def validate(table: Table, curve_table: Table | None = None, *, existing: Iterable[str] = (),
+             update: bool = False, verb: str = "imported") -> Validated:
+    """Validate every cell of ``table`` (and its curves); raise one error listing every problem.
+
+    ``existing`` are the part numbers already in the catalog: each of them in ``table`` is a
+    problem unless ``update`` is true.
+    """
+    existing = existing if isinstance(existing, (set, frozenset, dict)) else set(existing)
+    problems: list[Problem] = []
+    names = _header(table, FIELDS, problems)
+    present = {n for n in names if n}
+    for required in ("part_number", "category"):
+        if required not in present and not any("unknown column" in p.message for p in problems if p.column):
+            problems.append(Problem(f"the required column {required!r} is missing", table.header_line))
+    raise_problems(table.file, problems, verb)  # nothing more can be checked with a broken header
+
+    width = len(names)
+    n = len(table.rows)
+    rows = table.rows
+    for i, row in enumerate(rows):
+        if len(row) > width:
+            extra = row[width:]
+            if any(not _is_empty(c) for c in extra):
+                line, key = _where(table, i)
+                problems.append(Problem(f"the row has {len(row)} cells, the header has {width}", line, key=key))
+            rows[i] = row = row[:width]
+        if len(row) < width:
+            rows[i] = list(row) + [None] * (width - len(row))
+    columns = dict(zip(names, zip(*rows))) if n else {name: () for name in names}
+
+    records: list[dict[str, object]] = [dict.fromkeys(FIELDS) for _ in range(n)]
+
+    # Identity columns first: everything else is checked against the category.
+    cats: list[str | None] = [None] * n
+    for i, cell in enumerate(columns["category"]):
+        line, key = _where(table, i)
+        if _is_empty(cell):
+            problems.append(Problem("the category is empty; expected one of " + ", ".join(CATEGORIES), line,
+                                    "category", key))
+            continue
+        text = str(cell).strip().lower()
+        if text not in CATEGORIES:
+            problems.append(Problem(_choice_message("category", str(cell).strip(), CATEGORIES), line, "category", key))
+            continue
+        cats[i] = text
+        records[i]["category"] = text
+
+    first_line: dict[str, int | None] = {}
+    for i, cell in enumerate(columns["part_number"]):
+        line, key = _where(table, i)
+        if _is_empty(cell):
+            problems.append(Problem("the part number is empty", line, "part_number", key))
+            continue
+        pn = _text_cell(cell)
+        if any(ord(ch) < 32 for ch in pn):
+            problems.append(Problem(f"{pn!r} contains a control character", line, "part_number", key))
+            continue
+        if pn in first_line:
+            where = f"line {first_line[pn]}" if first_line[pn] is not None else "earlier"
+            problems.append(Problem(f"part number {pn!r} appears twice (first on {where})", line, "part_number", key))
+        else:
+            first_line[pn] = line
+            if pn in existing and not update:
+                problems.append(Problem(f"part number {pn!r} is already in the catalog; "
+                                        "import with --update to replace it", line, "part_number", key))
+        records[i]["part_number"] = pn
+
+    for name, cells in columns.items():
+        if name in (None, "part_number", "category"):
+            continue
+        spec = FIELDS[name]
+        allowed = set(spec.categories)
+        cache: dict[object, float | str] = {}
+        for i in [i for i, c in enumerate(cells) if c is not None and c != ""]:
+            cell = cells[i]
+            if isinstance(cell, str) and not cell.strip():
+                continue
+            cat = cats[i]
+            if cat is not None and cat not in allowed:
+                line, key = _where(table, i)
+                owners = ", ".join(spec.categories)
+                problems.append(Problem(f"{name} belongs to {owners}, not to {cat}; leave it empty for a {cat}",
+                                        line, name, key))
+                continue
+            try:
+                value = cache[cell]
+            except (KeyError, TypeError):
+                try:
+                    value = _text_value(name, cell, cat) if spec.text else parse_cell(cell, spec.kind)
+                    if not spec.text:
+                        why = _check_value(name, value, cell)  # type: ignore[arg-type]
+                        if why:
+                            raise QuantityError(why)
+                except QuantityError as exc:
+                    line, key = _where(table, i)
+                    problems.append(Problem(exc.message, line, name, key))
+                    continue
+                if name != "subtype":  # the subtype check depends on the row's category
+                    try:
+                        cache[cell] = value
+                    except TypeError:
+                        pass
+            records[i][name] = value
+
+    for i, record in enumerate(records):
+        if record["status"] is None:
+            record["status"] = "approved"
+        if cats[i] is not None:
+            _cross_checks(record, table, i, problems)
+
+    curves = None
+    curves_file = None
+    if table.curves is not None:  # JSON: curves inside each part
+        curves = _validate_curves(table.curves, records, table.file, problems, side=False)
+    elif curve_table is not None:
+        curves_file = curve_table.file
+        curves = _validate_curve_table(curve_table, records, problems)
+    raise_problems(table.file, problems, verb)
+    return Validated(table.file, records, list(table.lines), list(table.keys or [None] * n), curves, curves_file)
+
+
+def _text_cell(cell: object) -> str:
+    if isinstance(cell, float) and cell.is_integer():
+        return str(int(cell))
+    return str(cell).strip()
+
+
+def _text_value(name: str, cell: object, cat: str | None) -> str:
+    if isinstance(cell, bool) or not isinstance(cell, (str, int, float)):
+        raise QuantityError(f"{cell!r} is not text")
+    text = _text_cell(cell)
+    if name == "subtype":
+        text = text.lower()
+        if cat is not None and text not in CATEGORIES[cat]:
+            raise QuantityError(_choice_message(f"subtype of a {cat}", text, CATEGORIES[cat]))
+    elif name == "status":
+        text = text.lower()
+        if text not in STATUSES:
+            raise QuantityError(_choice_message("status", text, STATUSES))
+    elif name == "dielectric":
+        text = text.upper()
+        if text not in DIELECTRICS:
+            hint = " (NP0 is written C0G)" if text in ("NP0", "NPO") else ""
+            raise QuantityError(_choice_message("dielectric", text, DIELECTRICS) + hint)
+    return text
+
+
+def _cross_checks(record: dict[str, object], table: Table, i: int, problems: list[Problem]) -> None:
+    line, key = _where(table, i)
+    for low, high in (("ctr_min", "ctr_max"), ("ika_min", "ika_max")):
+        lo, hi = record[low], record[high]
+        if lo is not None and hi is not None and lo > hi:  # type: ignore[operator]
+            problems.append(Problem(f"{low} {lo!r} is above {high} {hi!r}", line, low, key))
+    if record["dielectric"] is not None and record["subtype"] not in (None, "ceramic"):
+        problems.append(Problem(f"a dielectric code is for ceramic capacitors, not {record['subtype']}",
+                                line, "dielectric", key))
+
+
+def _validate_curve_table(table: Table, records: list[dict[str, object]], problems: list[Problem]) -> dict:
+    own: list[Problem] = []
+    names = _header(table, CURVE_COLUMNS, own)
+    missing = [c for c in CURVE_COLUMNS if c not in names]
+    if missing and not own:
+        own.append(Problem(f"the curve file needs the columns {', '.join(CURVE_COLUMNS)}; "
+                           f"missing: {', '.join(missing)}", table.header_line))
+    if own:
+        problems.extend(Problem(p.message, p.line, p.column, p.key, table.file) for p in own)
+        return {}
+    idx = {name: names.index(name) for name in CURVE_COLUMNS}
+    points = []
+    for row, line in zip(table.rows, table.lines):
+        cells = list(row) + [None] * (len(names) - len(row))
+        points.append((_text_cell(cells[idx["part_number"]]) if not _is_empty(cells[idx["part_number"]]) else "",
+                       "" if _is_empty(cells[idx["curve"]]) else _text_cell(cells[idx["curve"]]).lower(),
+                       cells[idx["x"]], cells[idx["y"]], line, None))
+    return _validate_curves(points, records, table.file, problems, side=True)
+
+
+def _validate_curves(points, records, file: str, problems: list[Problem], *, side: bool) -> dict:
+    """Check curve points; returns {part_number: {curve: ((x, y), ...)}} for every part in the file."""
+    category = {r["part_number"]: r["category"] for r in records if r["part_number"] is not None}
+    out: dict[str, dict[str, list[tuple[float, float]]]] = {pn: {} for pn in category}
+    sfile = file if side else None
+
+    def bad(msg, line, column, key):
+        problems.append(Problem(msg, line, column, key, sfile))
+
+    for pn, name, xcell, ycell, line, key in points:
+        if not pn:
+            bad("the part number is empty", line, "part_number", key)
+            continue
+        if pn not in category:
+            bad(f"part {pn!r} is not among the parts of this import", line, "part_number", key)
+            continue
+        if name not in CURVES:
+            bad(_choice_message("curve", name or "(empty)", CURVES), line, "curve", key)
+            continue
+        spec = CURVES[name]
+        cat = category[pn]
+        if cat is not None and cat not in spec.categories:
+            bad(f"a {name} curve is for {', '.join(spec.categories)}, not for {cat} {pn!r}", line, "curve", key)
+            continue
+        try:
+            if _is_empty(xcell):
+                raise QuantityError("x is empty")
+            x = parse_cell(xcell, spec.x_kind)
+        except QuantityError as exc:
+            bad(exc.message, line, "x", key)
+            continue
+        try:
+            if _is_empty(ycell):
+                raise QuantityError("y is empty")
+            y = parse_cell(ycell, None)
+            if y < 0:
+                raise QuantityError(f"{ycell!r} is not allowed: y is a multiplier or fraction and cannot be negative")
+        except QuantityError as exc:
+            bad(exc.message, line, "y", key)
+            continue
+        curve = out[pn].setdefault(name, [])
+        if curve and not x > curve[-1][0]:
+            bad(f"x {format_quantity(x, spec.x_kind)} does not increase on the previous point's "
+                f"{format_quantity(curve[-1][0], spec.x_kind)}; list the points of a curve in increasing x",
+                line, "x", key)
+            continue
+        curve.append((x, y))
+    for pn, curves in out.items():
+        for name, pts in curves.items():
+            if len(pts) == 1:
+                bad(f"the {name} curve of {pn!r} has one point; a curve needs at least two", None, "curve", None)
+    return {pn: {name: tuple(pts) for name, pts in sorted(c.items(), key=lambda kv: list(CURVES).index(kv[0]))}
+            for pn, c in out.items()}
+
+
+# --------------------------------------------------------------------------------------------
+# Writing
+# --------------------------------------------------------------------------------------------
+
+
+def _csv_cell(value: object) -> str:
+    if value is None:
+        return ""
+    if isinstance(value, float):
+        return repr(value)
+    return str(value)
+
+
+def write_csv(records: Iterable[PartRecord], stream: IO[str], delimiter: str = ",") -> int:
+    """Write parts as catalog CSV (all :data:`FIELDS` columns); returns the number of rows."""
+    writer = csv.writer(stream, delimiter=delimiter, lineterminator="\n")
+    writer.writerow(FIELDS)
+    count = 0
+    for record in records:
+        writer.writerow([_csv_cell(getattr(record, name)) for name in FIELDS])
+        count += 1
+    return count
+
+
+def write_curves_csv(records: Iterable[PartRecord], stream: IO[str], delimiter: str = ",") -> int:
+    """Write the curve side file (``part_number,curve,x,y``); returns the number of points."""
+    writer = csv.writer(stream, delimiter=delimiter, lineterminator="\n")
+    writer.writerow(CURVE_COLUMNS)
+    count = 0
+    for record in records:
+        for name in CURVES:
+            for x, y in record.curves.get(name, ()):
+                writer.writerow([record.part_number, name, repr(float(x)), repr(float(y))])
+                count += 1
+    return count
+
+
+def part_to_json(record: PartRecord) -> dict[str, object]:
+    """A part as a JSON object: its category's columns (null when empty) and its curves."""
+    obj: dict[str, object] = {name: getattr(record, name) for name in CATEGORY_FIELDS[record.category]}
+    obj["curves"] = {name: [[x, y] for x, y in record.curves[name]] for name in CURVES if name in record.curves}
+    return obj
+
+
+def to_json(records: Iterable[PartRecord], schema_version: int) -> str:
+    """The canonical JSON export (sorted keys within a fixed layout, floats as repr, one trailing newline)."""
+    doc = {"format": FORMAT_NAME, "schema_version": schema_version, "parts": [part_to_json(r) for r in records]}
+    return json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False) + "\n"

@@ -1,0 +1,479 @@
+"""Open a catalog and use it: add, import, export, list, show, find, remove.
+
+:func:`open_catalog` takes a file path (SQLite) or a SQLAlchemy URL (anything with ``://``);
+without one it uses ``PARTCHECK_DB``, else the per-user file
+``$XDG_DATA_HOME/partcheck/catalog.sqlite`` (``~/.local/share/partcheck/catalog.sqlite``).
+SQLite catalogs run in WAL mode with a 10 s busy timeout and foreign keys on; every write is
+one ``BEGIN IMMEDIATE`` transaction, so an import either writes everything or nothing.
+
+The code is dialect-neutral SQLAlchemy Core (PostgreSQL is the other target); the only
+SQLite-specific parts are the connection set-up hooks.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import io
+import os
+from collections import defaultdict
+from contextlib import contextmanager
+from dataclasses import dataclass
+from pathlib import Path
+from typing import IO, Iterator, Literal
+
+from sqlalchemy import Engine, bindparam, create_engine, delete, event, func, insert, select, update
+from sqlalchemy.engine import URL, make_url
+from sqlalchemy.exc import ArgumentError, DBAPIError, IntegrityError, NoSuchModuleError, SQLAlchemyError
+from sqlalchemy.orm import Session
+
+from ..errors import CatalogError, CatalogInputError, NotFoundError
+from . import io as cio
+from .migrations import CURRENT_VERSION, check_version, migrate, schema_version
+from .models import CATEGORIES, CATEGORY_FIELDS, FIELDS, Curve, CurvePoint, Part, PartRecord
+
+PART = Part.__table__
+POINT = CurvePoint.__table__
+_COLUMNS = [PART.c[name] for name in FIELDS]
+
+#: SQLite busy timeout [s]: how long a writer waits for another writer before giving up.
+BUSY_TIMEOUT_S = 10.0
+
+
+def default_location() -> Path:
+    """The per-user catalog file: ``$XDG_DATA_HOME/partcheck/catalog.sqlite`` or ``~/.local/share/...``."""
+    base = os.environ.get("XDG_DATA_HOME", "")
+    root = Path(base) if base and Path(base).is_absolute() else Path.home() / ".local" / "share"
+    return root / "partcheck" / "catalog.sqlite"
+
+
+def _failure(message: str) -> CatalogError:
+    """A database failure that is not the user's input (exit code 1)."""
+    exc = CatalogError(message)
+    exc.exit_code = 1
+    return exc
+
+
+@dataclass(frozen=True)
+class ImportReport:
+    """What an import wrote."""
+
+    file: str
+    added: int
+    updated: int
+    curve_points: int
+    curves_file: str | None
+    method: str = "bulk"
+
+    def __str__(self) -> str:
+        curves = f", {self.curve_points} curve points" + (f" from {self.curves_file}" if self.curves_file else "")
+        return f"{self.file}: {self.added} parts added, {self.updated} updated{curves}"
+
+
+@dataclass(frozen=True)
+class ExportReport:
+    """What an export wrote; ``curves_skipped`` counts points that had nowhere to go (CSV to a stream)."""
+
+    parts: int
+    curve_points: int
+    curves_file: str | None = None
+    curves_skipped: int = 0
+
+
+def open_catalog(url: str | os.PathLike[str] | None = None, *, create: bool = True) -> "Catalog":
+    """Open (and with ``create`` make) the catalog at ``url``; see the module docstring for defaults.
+
+    Raises :class:`CatalogError` when the target is not a catalog, holds a newer schema version,
+    or does not exist and ``create`` is false.
+    """
+    if url is None or (isinstance(url, str) and not url.strip()):
+        url = os.environ.get("PARTCHECK_DB", "").strip() or None
+    is_default = url is None
+    target = str(default_location() if url is None else url)
+    sqlite_path: Path | None = None
+    if "://" in target:
+        try:
+            sa_url = make_url(target)
+        except ArgumentError:
+            raise CatalogError(f"{target!r} is not a database URL such as postgresql://host/dbname") from None
+        location = sa_url.render_as_string(hide_password=True)
+        if sa_url.get_backend_name() == "sqlite" and sa_url.database not in (None, "", ":memory:"):
+            sqlite_path = Path(sa_url.database)
+    else:
+        sqlite_path = Path(target).expanduser()
+        sa_url = URL.create("sqlite", database=str(sqlite_path))
+        location = str(sqlite_path)
+    if sqlite_path is not None:
+        if sqlite_path.is_dir():
+            raise CatalogError(f"{location} is a directory; expected a catalog file such as catalog.sqlite")
+        if not sqlite_path.exists():
+            if not create:
+                raise CatalogError(f"there is no catalog at {location}; create it with `partcheck catalog init`")
+            if is_default:
+                sqlite_path.parent.mkdir(parents=True, exist_ok=True)
+            elif not sqlite_path.parent.is_dir():
+                raise CatalogError(f"cannot create {location}: the directory {sqlite_path.parent} does not exist")
+    try:
+        kwargs = {"connect_args": {"timeout": BUSY_TIMEOUT_S}} if sa_url.get_backend_name() == "sqlite" else {}
+        engine = create_engine(sa_url, **kwargs)
+    except (ArgumentError, NoSuchModuleError, ImportError) as exc:
+        raise CatalogError(f"cannot use the database URL {location}: {exc}") from None
+    if engine.dialect.name == "sqlite":
+        _sqlite_hooks(engine)
+    catalog = Catalog(engine, location, sqlite_path)
+    try:
+        catalog._open(create)
+    except BaseException:
+        catalog.close()
+        raise
+    return catalog
+
+
+def _sqlite_hooks(engine: Engine) -> None:
+    @event.listens_for(engine, "connect")
+    def _on_connect(dbapi_conn, _record):  # pragma: no cover - exercised by every test
+        dbapi_conn.isolation_level = None  # the driver must not BEGIN on its own; we do (below)
+        cursor = dbapi_conn.cursor()
+        cursor.execute(f"PRAGMA busy_timeout = {int(BUSY_TIMEOUT_S * 1000)}")
+        cursor.execute("PRAGMA foreign_keys = ON")
+        cursor.close()
+
+    @event.listens_for(engine, "begin")
+    def _on_begin(conn):  # pragma: no cover
+        # Writers take the write lock up front so two importers queue instead of deadlocking.
+        conn.exec_driver_sql("BEGIN IMMEDIATE" if conn.get_execution_options().get("partcheck_write") else "BEGIN")
+
+
+class Catalog:
+    """An open catalog.  Use as a context manager or call :meth:`close`."""
+
+    def __init__(self, engine: Engine, location: str, path: Path | None) -> None:
+        self._engine = engine
+        self.location = location
+        self.path = path
+        self.schema_version: int | None = None
+
+    # ---- plumbing --------------------------------------------------------------------------
+
+    def __enter__(self) -> "Catalog":
+        return self
+
+    def __exit__(self, *exc) -> None:
+        self.close()
+
+    def __repr__(self) -> str:
+        return f"Catalog({self.location!r})"
+
+    def close(self) -> None:
+        """Close every connection (SQLite folds its WAL back into the file)."""
+        self._engine.dispose()
+
+    @contextmanager
+    def _conn(self, write: bool) -> Iterator:
+        try:
+            with self._engine.connect() as conn:
+                if write:
+                    conn = conn.execution_options(partcheck_write=True)
+                with conn.begin():
+                    yield conn
+        except IntegrityError as exc:
+            raise _failure(f"{self.location}: the catalog changed during the write and nothing was written "
+                           f"({exc.orig}); try again") from None
+        except DBAPIError as exc:
+            text = str(exc.orig)
+            if "file is not a database" in text or "not a database" in text:
+                raise CatalogError(f"{self.location} is not a partcheck catalog (not an SQLite database)") from None
+            raise _failure(f"{self.location}: database error: {text}") from None
+        except SQLAlchemyError as exc:
+            raise _failure(f"{self.location}: database error: {exc}") from None
+
+    def _open(self, create: bool) -> None:
+        with self._conn(write=False) as conn:
+            version = schema_version(conn, self.location)
+        if version is not None:
+            check_version(version, self.location)
+        if version is None and not create:
+            raise CatalogError(f"{self.location} is an empty database, not a catalog yet; "
+                               "create it with `partcheck catalog init`")
+        if version is None or version < CURRENT_VERSION:
+            self.init()
+        else:
+            self.schema_version = version
+        self._ensure_wal()
+
+    def _ensure_wal(self) -> None:
+        if self._engine.dialect.name != "sqlite" or self.path is None:
+            return
+        raw = self._engine.raw_connection()  # journal mode cannot change inside a transaction
+        try:
+            cursor = raw.cursor()
+            mode = cursor.execute("PRAGMA journal_mode").fetchone()[0]
+            if str(mode).lower() != "wal" and os.access(self.path, os.W_OK):
+                cursor.execute("PRAGMA journal_mode = WAL")
+            cursor.close()
+        except DBAPIError as exc:  # pragma: no cover - e.g. a read-only medium
+            raise _failure(f"{self.location}: cannot switch to WAL mode: {exc.orig}") from None
+        finally:
+            raw.close()
+
+    def init(self) -> None:
+        """Create the tables (or apply missing migrations); safe to run on an existing catalog."""
+        with self._conn(write=True) as conn:
+            version = schema_version(conn, self.location)
+            if version is not None:
+                check_version(version, self.location)
+            migrate(conn, version)
+        self.schema_version = CURRENT_VERSION
+
+    # ---- writing ---------------------------------------------------------------------------
+
+    def _existing(self) -> dict[str, int]:
+        with self._conn(write=False) as conn:
+            return dict(conn.execute(select(PART.c.part_number, PART.c.id)).all())
+
+    def add(self, fields: dict[str, str | float], *, update: bool = False) -> PartRecord:
+        """Add one part from column values (text with units, or SI numbers); returns it as stored."""
+        table = cio.Table("", list(fields), [list(fields.values())], [None], None, ["the part"])
+        validated = cio.validate(table, None, existing=self._existing(), update=update, verb="added")
+        self._write(validated, update=update)
+        return self.get(str(validated.records[0]["part_number"]))
+
+    def import_file(self, path: str | os.PathLike[str], *, update: bool = False,
+                    method: Literal["bulk", "orm"] = "bulk") -> ImportReport:
+        """Import a CSV, TSV, XLSX or JSON catalog file (and its curve side file) all-or-nothing.
+
+        Every cell is validated before anything is written; all problems are reported in one
+        :class:`CatalogInputError`.  A part number already in the catalog is an error unless
+        ``update`` is true, which replaces the stored part (and, when curve data is given, its
+        curves).  ``method="orm"`` writes row by row through the ORM, for the benchmark only.
+        """
+        table = cio.read_table(path)
+        curve_table = cio.read_curve_table(path)
+        validated = cio.validate(table, curve_table, existing=self._existing(), update=update)
+        return self._write(validated, update=update, method=method)
+
+    def _write(self, v: cio.Validated, *, update: bool, method: str = "bulk") -> ImportReport:
+        with self._conn(write=True) as conn:
+            existing = dict(conn.execute(select(PART.c.part_number, PART.c.id)).all())
+            new = [r for r in v.records if r["part_number"] not in existing]
+            old = [r for r in v.records if r["part_number"] in existing]
+            if old and not update:  # appeared since validation: another writer was faster
+                raise _failure(f"{v.file or self.location}: part {old[0]['part_number']!r} was added to the "
+                               "catalog by someone else during this import; nothing was written, try again")
+            if method == "orm":
+                self._insert_orm(conn, new)
+            else:
+                self._insert_bulk(conn, new)
+            if old:
+                self._update_bulk(conn, old)
+            points = 0
+            if v.curves is not None:
+                ids = dict(conn.execute(select(PART.c.part_number, PART.c.id)).all())
+                if old:
+                    conn.execute(delete(POINT).where(POINT.c.part_id == bindparam("pid")),
+                                 [{"pid": existing[r["part_number"]]} for r in old])
+                rows = [{"part_id": ids[pn], "curve": name, "seq": seq, "x": x, "y": y}
+                        for pn, curves in v.curves.items() for name, pts in curves.items()
+                        for seq, (x, y) in enumerate(pts)]
+                if rows:
+                    conn.execute(insert(POINT), rows)
+                points = len(rows)
+        return ImportReport(v.file, len(new), len(old), points, v.curves_file, method)
+
+    @staticmethod
+    def _insert_bulk(conn, records: list[dict]) -> None:
+        # One executemany per category, binding only that category's columns (the rest are NULL).
+        by_category: dict[str, list[dict]] = defaultdict(list)
+        for r in records:
+            by_category[r["category"]].append(r)  # type: ignore[index]
+        for category, group in by_category.items():
+            cols = CATEGORY_FIELDS[category]
+            conn.execute(insert(PART), [{c: r[c] for c in cols} for r in group])
+
+    @staticmethod
+    def _insert_orm(conn, records: list[dict]) -> None:
+        # Row by row through the ORM (one INSERT per part): the slow path the benchmark compares with.
+        session = Session(bind=conn)
+        for r in records:
+            session.add(Part(**r))
+            session.flush()
+        session.close()
+
+    @staticmethod
+    def _update_bulk(conn, records: list[dict]) -> None:
+        names = [n for n in FIELDS if n != "part_number"]
+        stmt = (update(PART).where(PART.c.part_number == bindparam("k_part_number"))
+                .values({n: bindparam(f"k_{n}") for n in names}))
+        conn.execute(stmt, [{f"k_{n}": r[n] for n in FIELDS} for r in records])
+
+    def remove(self, part_number: str) -> PartRecord:
+        """Remove a part and its curves; returns what was removed.  NotFoundError when absent."""
+        record = self.get(part_number)
+        with self._conn(write=True) as conn:
+            pid = conn.execute(select(PART.c.id).where(PART.c.part_number == part_number)).scalar()
+            if pid is None:
+                raise self._not_found(part_number)
+            conn.execute(delete(POINT).where(POINT.c.part_id == pid))
+            conn.execute(delete(PART).where(PART.c.id == pid))
+        return record
+
+    # ---- reading ---------------------------------------------------------------------------
+
+    def count(self, category: str | None = None) -> int:
+        """Number of parts (of ``category``)."""
+        q = select(func.count()).select_from(PART)
+        if category is not None:
+            q = q.where(PART.c.category == category)
+        with self._conn(write=False) as conn:
+            return int(conn.execute(q).scalar() or 0)
+
+    def _records(self, conn, where: list) -> list[PartRecord]:
+        rows = conn.execute(select(PART.c.id, *_COLUMNS).where(*where)).all()
+        if not rows:
+            return []
+        q = select(POINT.c.part_id, POINT.c.curve, POINT.c.x, POINT.c.y).order_by(
+            POINT.c.part_id, POINT.c.curve, POINT.c.seq)
+        if where:
+            q = q.where(POINT.c.part_id.in_(select(PART.c.id).where(*where)))
+        curves: dict[int, dict[str, list]] = defaultdict(lambda: defaultdict(list))
+        for pid, name, x, y in conn.execute(q):
+            curves[pid][name].append((x, y))
+        names = list(FIELDS)
+        out = []
+        for row in rows:
+            c = curves.get(row[0])
+            out.append(PartRecord._fast(dict(zip(names, row[1:])),
+                                        {k: tuple(v) for k, v in c.items()} if c else {}))
+        out.sort(key=lambda r: r.part_number)  # code-point order on every database
+        return out
+
+    def parts(self, category: str | None = None, subtype: str | None = None,
+              min_ratings: dict[str, float | str] | None = None) -> list[PartRecord]:
+        """Every part (matching the filters), sorted by part number, curves included.
+
+        ``min_ratings`` maps numeric columns to minimum values (SI floats, or text with units
+        such as ``"100 V"``); a part without a value for such a column is left out.
+        """
+        where = []
+        if category is not None:
+            if category not in CATEGORIES:
+                raise CatalogInputError(cio._choice_message("category", category, CATEGORIES), column="category")
+            where.append(PART.c.category == category)
+        if subtype is not None:
+            valid = sorted({s for subs in CATEGORIES.values() for s in subs}) if category is None \
+                else CATEGORIES[category]
+            if subtype not in valid:
+                raise CatalogInputError(cio._choice_message("subtype", subtype, valid), column="subtype")
+            where.append(PART.c.subtype == subtype)
+        for name, value in (min_ratings or {}).items():
+            spec = FIELDS.get(name)
+            if spec is None or spec.text:
+                numeric = [n for n, s in FIELDS.items() if not s.text]
+                raise CatalogInputError(cio.unknown_column_message(name, numeric).replace(
+                    "unknown column", "no numeric column").replace("valid columns", "numeric columns"), key=name)
+            try:
+                minimum = cio.parse_cell(value, spec.kind)
+            except CatalogInputError:
+                raise
+            except ValueError as exc:
+                raise CatalogInputError(getattr(exc, "message", str(exc)), key=name) from None
+            where.append(PART.c[name] >= minimum)
+        with self._conn(write=False) as conn:
+            return self._records(conn, where)
+
+    def _not_found(self, part_number: str) -> NotFoundError:
+        from rapidfuzz import fuzz, process
+
+        with self._conn(write=False) as conn:
+            numbers = list(conn.execute(select(PART.c.part_number)).scalars())
+        near = [hit[0] for hit in process.extract(part_number, numbers, scorer=fuzz.ratio, limit=3, score_cutoff=50)]
+        hint = f" (closest: {', '.join(near)})" if near else ""
+        return NotFoundError(f"part {part_number!r} is not in the catalog{hint}; add it with `partcheck catalog add`")
+
+    def get(self, part_number: str) -> PartRecord:
+        """One part by its exact part number; NotFoundError naming the closest ones when absent."""
+        with self._conn(write=False) as conn:
+            found = self._records(conn, [PART.c.part_number == part_number])
+        if not found:
+            raise self._not_found(part_number)
+        return found[0]
+
+    def find(self, text: str, limit: int = 10, category: str | None = None) -> list[tuple[PartRecord, float]]:
+        """Fuzzy search over part number and description: ``[(part, score 0..100), ...]`` best first."""
+        from rapidfuzz import fuzz, process, utils
+
+        if not text or not text.strip():
+            raise CatalogInputError("the search text is empty; give part of a part number or description")
+        if limit < 1:
+            raise CatalogInputError(f"limit must be at least 1, got {limit}", key="limit")
+        where = [PART.c.category == category] if category else []
+        with self._conn(write=False) as conn:
+            rows = conn.execute(select(PART.c.id, PART.c.part_number, PART.c.description).where(*where)).all()
+        choices = {pid: f"{pn} {desc or ''}" for pid, pn, desc in rows}
+        number = {pid: pn for pid, pn, _ in rows}
+        hits = process.extract(text, choices, scorer=fuzz.WRatio, processor=utils.default_process,
+                               limit=None, score_cutoff=40)
+        hits.sort(key=lambda h: (-h[1], number[h[2]]))
+        hits = hits[:limit]
+        if not hits:
+            return []
+        with self._conn(write=False) as conn:
+            records = {r.part_number: r for r in self._records(conn, [PART.c.id.in_([h[2] for h in hits])])}
+        return [(records[number[h[2]]], round(float(h[1]), 1)) for h in hits]
+
+    # ---- export ----------------------------------------------------------------------------
+
+    def export(self, target: str | os.PathLike[str] | IO[str], fmt: str | None = None, *,
+               curves_stream: IO[str] | None = None) -> ExportReport:
+        """Write every part as ``csv`` or ``json`` to a path or text stream (format from the suffix if None).
+
+        A CSV path also gets its curve side file (``X.curves.csv``, header only when there are
+        no curves); to a stream the curves go to ``curves_stream`` if given.  The output is
+        deterministic: exporting, importing and exporting again gives identical bytes.
+        """
+        is_path = isinstance(target, (str, os.PathLike))
+        if fmt is None:
+            fmt = "json" if is_path and Path(target).suffix.lower() == ".json" else "csv"  # type: ignore[arg-type]
+        if fmt not in ("csv", "json"):
+            raise CatalogInputError(f"unknown export format {fmt!r}; expected csv or json", key="format")
+        records = self.parts()
+        points = sum(len(p) for r in records for p in r.curves.values())
+        if fmt == "json":
+            text = cio.to_json(records, self.schema_version or CURRENT_VERSION)
+            if is_path:
+                _write_atomic(Path(target), text)  # type: ignore[arg-type]
+            else:
+                target.write(text)  # type: ignore[union-attr]
+            return ExportReport(len(records), points)
+        main = io.StringIO()
+        cio.write_csv(records, main)
+        if is_path:
+            side = cio.curves_path(target)  # type: ignore[arg-type]
+            curves = io.StringIO()
+            cio.write_curves_csv(records, curves)
+            _write_atomic(Path(target), main.getvalue())  # type: ignore[arg-type]
+            _write_atomic(side, curves.getvalue())
+            return ExportReport(len(records), points, str(side))
+        target.write(main.getvalue())  # type: ignore[union-attr]
+        if curves_stream is not None:
+            cio.write_curves_csv(records, curves_stream)
+            return ExportReport(len(records), points)
+        return ExportReport(len(records), 0, None, points)
+
+    def snapshot_hash(self) -> str:
+        """sha256 (hex) of the canonical JSON export: equal hashes mean equal catalogs."""
+        text = cio.to_json(self.parts(), self.schema_version or CURRENT_VERSION)
+        return hashlib.sha256(text.encode("utf-8")).hexdigest()
+
+
+def _write_atomic(path: Path, text: str) -> None:
+    """Write ``text`` to ``path`` through a temporary file, so a failed export leaves no half file."""
+    if not path.parent.is_dir():
+        raise CatalogInputError(f"cannot write {path}: the directory {path.parent} does not exist", file=path)
+    tmp = path.with_name(f".{path.name}.partcheck-tmp")
+    with open(tmp, "w", encoding="utf-8", newline="") as f:
+        f.write(text)
+    os.replace(tmp, path)
+
+
+# Curve type re-exported for callers that annotate with it.
+__all__ = ["Catalog", "ExportReport", "ImportReport", "open_catalog", "default_location", "Curve", "BUSY_TIMEOUT_S"]
