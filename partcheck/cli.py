@@ -69,6 +69,74 @@ def _root(
 
 # ---- policy (partcheck policy ...) ------------------------------------------------------------
 
+policy_app = typer.Typer(no_args_is_help=True, help="Derating policies: shipped presets and your own rules files.")
+app.add_typer(policy_app, name="policy")
+
+
+@policy_app.command("list")
+def policy_list() -> None:
+    """List the shipped policy presets with their rule counts and descriptions."""
+    from rich.table import Table
+
+    from .rules.policy import DEFAULT_POLICY, list_presets, load_preset
+
+    table = Table("preset", "rules", "description", title="shipped policy presets")
+    for name in list_presets():
+        preset = load_preset(name)
+        label = f"{name} (default)" if name == DEFAULT_POLICY else name
+        table.add_row(label, str(len(preset.rules)), preset.description)
+    out.print(table)
+
+
+@policy_app.command("show")
+def policy_show(
+    spec: Annotated[
+        Optional[str], typer.Argument(metavar="[NAME|FILE]", help="A preset name or a policy file (default: industrial).")
+    ] = None,
+    fmt: Annotated[str, typer.Option("--format", help="table or json.")] = "table",
+) -> None:
+    """Print the effective rules of a policy (after extends) with their sources."""
+    import json
+
+    from rich.table import Table
+
+    from .errors import InputError
+    from .rules.policy import effective_rules_table, load_policy
+
+    if fmt not in ("table", "json"):
+        raise InputError(f"--format {fmt!r}: expected table or json")
+    policy = load_policy(spec)
+    if fmt == "json":
+        out.print_json(json.dumps(policy.to_dict(), ensure_ascii=False))
+        return
+    chain = " → ".join(policy.chain)
+    table = Table(title=f"policy {policy.name}: {len(policy.rules)} rules ({chain})")
+    for header in ("id", "applies to", "parameter"):
+        table.add_column(header, no_wrap=True)
+    table.add_column("limit", ratio=2)
+    table.add_column("warn", no_wrap=True)
+    table.add_column("source", ratio=3)
+    table.add_column("confidence", no_wrap=True)
+    for row in effective_rules_table(policy):
+        table.add_row(row["id"], row["applies_to"], row["parameter"], row["limit"], row["warn"], row["source"],
+                      row["confidence"])
+    out.print(table)
+    unassessed = "fail" if policy.fail_unassessed else "do not fail"
+    unmatched = "fail" if policy.fail_unmatched else "do not fail"
+    out.print(f"parts that cannot be assessed {unassessed} the design; unmatched BOM lines {unmatched} it.")
+
+
+@policy_app.command("validate")
+def policy_validate(
+    file: Annotated[str, typer.Argument(metavar="FILE", help="The policy file to check.")],
+) -> None:
+    """Check a policy file (and what it extends); print the rule count or the first error."""
+    from .rules.policy import load_policy_file
+
+    policy = load_policy_file(file)
+    out.print(f"valid: {len(policy.rules)} rules (policy {policy.name})")
+
+
 # ---- check, report and demo -------------------------------------------------------------------
 
 
