@@ -20,7 +20,8 @@ import csv
 import io
 import json
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass
+from itertools import compress
 from pathlib import Path
 from typing import IO, Iterable
 
@@ -79,19 +80,28 @@ class Table:
     header_line: int | None = 1
     keys: list[str | None] | None = None  # JSON: "parts[3]" per row
     curves: list[tuple[str, str, object, object, int | None, str | None]] | None = None  # JSON curves
+    text_only: bool = False  # every cell is a str (CSV, TSV): lets validation skip empty cells at C speed
 
 
 @dataclass
 class Validated:
-    """A validated import: complete column mappings (SI floats) and curves, nothing written yet."""
+    """A validated import, nothing written yet: one list of values (SI floats) per column of FIELDS."""
 
     file: str
-    records: list[dict[str, object]]
+    columns: dict[str, list]
     lines: list[int | None]
     keys: list[str | None]
     curves: dict[str, dict[str, Curve]] | None  # None: no curve data given (existing curves stay)
     curves_file: str | None = None
-    extra: list[Problem] = field(default_factory=list)
+
+    def __len__(self) -> int:
+        return len(self.columns["part_number"])
+
+    def records(self, indices: Iterable[int] | None = None) -> list[dict[str, object]]:
+        """Complete column mappings of the rows ``indices`` (all rows when None)."""
+        cols = [self.columns[name] for name in FIELDS]
+        rows = zip(*cols) if indices is None else ([c[i] for c in cols] for i in indices)
+        return [dict(zip(FIELDS, row)) for row in rows]
 
 
 def raise_problems(file: str, problems: list[Problem], verb: str = "imported") -> None:
@@ -174,7 +184,7 @@ def _read_delimited(path: Path, delimiter: str) -> Table:
         for cells in reader:
             start = previous + 1
             previous = reader.line_num
-            if not cells or all(not c.strip() for c in cells):
+            if not "".join(cells).strip():
                 continue
             if header is None:
                 header, header_line = cells, start
@@ -187,7 +197,7 @@ def _read_delimited(path: Path, delimiter: str) -> Table:
     if header is None:
         raise CatalogInputError("the file is empty; expected a header row such as 'part_number,category,...'",
                                 file=path)
-    return Table(str(path), [h.strip() for h in header], rows, lines, header_line)
+    return Table(str(path), [h.strip() for h in header], rows, lines, header_line, text_only=True)
 
 
 def _xlsx_cell(value: object) -> object:
@@ -414,7 +424,9 @@ def validate(table: Table, curve_table: Table | None = None, *, existing: Iterab
     width = len(names)
     n = len(table.rows)
     rows = table.rows
-    for i, row in enumerate(rows):
+    padded = False
+    for i in ([] if set(map(len, rows)) <= {width} else range(n)):
+        row = rows[i]
         if len(row) > width:
             extra = row[width:]
             if any(not _is_empty(c) for c in extra):
@@ -423,9 +435,9 @@ def validate(table: Table, curve_table: Table | None = None, *, existing: Iterab
             rows[i] = row = row[:width]
         if len(row) < width:
             rows[i] = list(row) + [None] * (width - len(row))
+            padded = True
     columns = dict(zip(names, zip(*rows))) if n else {name: () for name in names}
-
-    records: list[dict[str, object]] = [dict.fromkeys(FIELDS) for _ in range(n)]
+    out: dict[str, list] = {}
 
     # Identity columns first: everything else is checked against the category.
     cats: list[str | None] = [None] * n
@@ -440,8 +452,9 @@ def validate(table: Table, curve_table: Table | None = None, *, existing: Iterab
             problems.append(Problem(_choice_message("category", str(cell).strip(), CATEGORIES), line, "category", key))
             continue
         cats[i] = text
-        records[i]["category"] = text
+    out["category"] = cats
 
+    pns: list[str | None] = [None] * n
     first_line: dict[str, int | None] = {}
     for i, cell in enumerate(columns["part_number"]):
         line, key = _where(table, i)
@@ -449,7 +462,7 @@ def validate(table: Table, curve_table: Table | None = None, *, existing: Iterab
             problems.append(Problem("the part number is empty", line, "part_number", key))
             continue
         pn = _text_cell(cell)
-        if any(ord(ch) < 32 for ch in pn):
+        if not pn.isprintable():
             problems.append(Problem(f"{pn!r} contains a control character", line, "part_number", key))
             continue
         if pn in first_line:
@@ -460,60 +473,73 @@ def validate(table: Table, curve_table: Table | None = None, *, existing: Iterab
             if pn in existing and not update:
                 problems.append(Problem(f"part number {pn!r} is already in the catalog; "
                                         "import with --update to replace it", line, "part_number", key))
-        records[i]["part_number"] = pn
+        pns[i] = pn
+    out["part_number"] = pns
 
     for name, cells in columns.items():
         if name in (None, "part_number", "category"):
             continue
-        spec = FIELDS[name]
-        allowed = set(spec.categories)
-        cache: dict[object, float | str] = {}
-        for i in [i for i, c in enumerate(cells) if c is not None and c != ""]:
-            cell = cells[i]
-            if isinstance(cell, str) and not cell.strip():
-                continue
-            cat = cats[i]
-            if cat is not None and cat not in allowed:
-                line, key = _where(table, i)
-                owners = ", ".join(spec.categories)
-                problems.append(Problem(f"{name} belongs to {owners}, not to {cat}; leave it empty for a {cat}",
-                                        line, name, key))
-                continue
-            try:
-                value = cache[cell]
-            except (KeyError, TypeError):
-                try:
-                    value = _text_value(name, cell, cat) if spec.text else parse_cell(cell, spec.kind)
-                    if not spec.text:
-                        why = _check_value(name, value, cell)  # type: ignore[arg-type]
-                        if why:
-                            raise QuantityError(why)
-                except QuantityError as exc:
-                    line, key = _where(table, i)
-                    problems.append(Problem(exc.message, line, name, key))
-                    continue
-                if name != "subtype":  # the subtype check depends on the row's category
-                    try:
-                        cache[cell] = value
-                    except TypeError:
-                        pass
-            records[i][name] = value
+        out[name] = _validate_column(name, cells, cats, table, problems, table.text_only and not padded)
 
-    for i, record in enumerate(records):
-        if record["status"] is None:
-            record["status"] = "approved"
-        if cats[i] is not None:
-            _cross_checks(record, table, i, problems)
+    empty = [None] * n
+    values = {name: out.get(name, empty) for name in FIELDS}
+    values["status"] = ["approved" if s is None else s for s in values["status"]]
+    _cross_checks(values, table, problems)
 
     curves = None
     curves_file = None
+    category = {pn: cat for pn, cat in zip(pns, cats) if pn is not None}
     if table.curves is not None:  # JSON: curves inside each part
-        curves = _validate_curves(table.curves, records, table.file, problems, side=False)
+        curves = _validate_curves(table.curves, category, table.file, problems, side=False)
     elif curve_table is not None:
         curves_file = curve_table.file
-        curves = _validate_curve_table(curve_table, records, problems)
+        curves = _validate_curve_table(curve_table, category, problems)
     raise_problems(table.file, problems, verb)
-    return Validated(table.file, records, list(table.lines), list(table.keys or [None] * n), curves, curves_file)
+    return Validated(table.file, values, list(table.lines), list(table.keys or [None] * n), curves, curves_file)
+
+
+def _validate_column(name: str, cells: tuple, cats: list[str | None], table: Table, problems: list[Problem],
+                     text_only: bool) -> list:
+    """Parse and check one column; returns its values (None where empty or bad)."""
+    spec = FIELDS[name]
+    allowed = set(spec.categories)
+    values: list = [None] * len(cells)
+    cache: dict[object, float | str] = {}
+    missing = object()
+    if text_only:
+        filled = list(compress(range(len(cells)), cells))  # non-empty strings, at C speed
+    else:  # spreadsheets and JSON: 0 is a value, not an empty cell
+        filled = [i for i, c in enumerate(cells) if c is not None and c != ""]
+    for i in filled:
+        cell = cells[i]
+        cat = cats[i]
+        if cat is not None and cat not in allowed:
+            if isinstance(cell, str) and not cell.strip():
+                continue
+            line, key = _where(table, i)
+            problems.append(Problem(f"{name} belongs to {', '.join(spec.categories)}, not to {cat}; "
+                                    f"leave it empty for a {cat}", line, name, key))
+            continue
+        value = cache.get(cell, missing) if isinstance(cell, str) else missing
+        if value is missing:
+            if isinstance(cell, str) and not cell.strip():
+                continue
+            try:
+                if spec.text:
+                    value = _text_value(name, cell, cat)
+                else:
+                    value = parse_cell(cell, spec.kind)
+                    why = _check_value(name, value, cell)  # type: ignore[arg-type]
+                    if why:
+                        raise QuantityError(why)
+            except QuantityError as exc:
+                line, key = _where(table, i)
+                problems.append(Problem(exc.message, line, name, key))
+                continue
+            if name != "subtype" and isinstance(cell, str):  # the subtype check depends on the category
+                cache[cell] = value
+        values[i] = value
+    return values
 
 
 def _text_cell(cell: object) -> str:
@@ -542,18 +568,20 @@ def _text_value(name: str, cell: object, cat: str | None) -> str:
     return text
 
 
-def _cross_checks(record: dict[str, object], table: Table, i: int, problems: list[Problem]) -> None:
-    line, key = _where(table, i)
+def _cross_checks(values: dict[str, list], table: Table, problems: list[Problem]) -> None:
     for low, high in (("ctr_min", "ctr_max"), ("ika_min", "ika_max")):
-        lo, hi = record[low], record[high]
-        if lo is not None and hi is not None and lo > hi:  # type: ignore[operator]
-            problems.append(Problem(f"{low} {lo!r} is above {high} {hi!r}", line, low, key))
-    if record["dielectric"] is not None and record["subtype"] not in (None, "ceramic"):
-        problems.append(Problem(f"a dielectric code is for ceramic capacitors, not {record['subtype']}",
-                                line, "dielectric", key))
+        for i, (lo, hi) in enumerate(zip(values[low], values[high])):
+            if lo is not None and hi is not None and lo > hi:
+                line, key = _where(table, i)
+                problems.append(Problem(f"{low} {lo!r} is above {high} {hi!r}", line, low, key))
+    for i, (dielectric, subtype) in enumerate(zip(values["dielectric"], values["subtype"])):
+        if dielectric is not None and subtype not in (None, "ceramic"):
+            line, key = _where(table, i)
+            problems.append(Problem(f"a dielectric code is for ceramic capacitors, not {subtype}",
+                                    line, "dielectric", key))
 
 
-def _validate_curve_table(table: Table, records: list[dict[str, object]], problems: list[Problem]) -> dict:
+def _validate_curve_table(table: Table, category: dict[str, str | None], problems: list[Problem]) -> dict:
     own: list[Problem] = []
     names = _header(table, CURVE_COLUMNS, own)
     missing = [c for c in CURVE_COLUMNS if c not in names]
@@ -570,12 +598,12 @@ def _validate_curve_table(table: Table, records: list[dict[str, object]], proble
         points.append((_text_cell(cells[idx["part_number"]]) if not _is_empty(cells[idx["part_number"]]) else "",
                        "" if _is_empty(cells[idx["curve"]]) else _text_cell(cells[idx["curve"]]).lower(),
                        cells[idx["x"]], cells[idx["y"]], line, None))
-    return _validate_curves(points, records, table.file, problems, side=True)
+    return _validate_curves(points, category, table.file, problems, side=True)
 
 
-def _validate_curves(points, records, file: str, problems: list[Problem], *, side: bool) -> dict:
+def _validate_curves(points, category: dict[str, str | None], file: str, problems: list[Problem], *,
+                     side: bool) -> dict:
     """Check curve points; returns {part_number: {curve: ((x, y), ...)}} for every part in the file."""
-    category = {r["part_number"]: r["category"] for r in records if r["part_number"] is not None}
     out: dict[str, dict[str, list[tuple[float, float]]]] = {pn: {} for pn in category}
     sfile = file if side else None
 

@@ -252,42 +252,45 @@ class Catalog:
         return self._write(validated, update=update, method=method)
 
     def _write(self, v: cio.Validated, *, update: bool, method: str = "bulk") -> ImportReport:
+        pns = v.columns["part_number"]
         with self._conn(write=True) as conn:
             existing = dict(conn.execute(select(PART.c.part_number, PART.c.id)).all())
-            new = [r for r in v.records if r["part_number"] not in existing]
-            old = [r for r in v.records if r["part_number"] in existing]
+            new = [i for i, pn in enumerate(pns) if pn not in existing]
+            old = [i for i, pn in enumerate(pns) if pn in existing]
             if old and not update:  # appeared since validation: another writer was faster
-                raise _failure(f"{v.file or self.location}: part {old[0]['part_number']!r} was added to the "
-                               "catalog by someone else during this import; nothing was written, try again")
+                raise _failure(f"{v.file or self.location}: part {pns[old[0]]!r} was added to the catalog by "
+                               "someone else during this import; nothing was written, try again")
             if method == "orm":
-                self._insert_orm(conn, new)
+                self._insert_orm(conn, v.records(new))
             else:
-                self._insert_bulk(conn, new)
+                self._insert_bulk(conn, v, new)
             if old:
-                self._update_bulk(conn, old)
+                self._update_bulk(conn, v.records(old))
             points = 0
             if v.curves is not None:
                 ids = dict(conn.execute(select(PART.c.part_number, PART.c.id)).all())
                 if old:
                     conn.execute(delete(POINT).where(POINT.c.part_id == bindparam("pid")),
-                                 [{"pid": existing[r["part_number"]]} for r in old])
-                rows = [{"part_id": ids[pn], "curve": name, "seq": seq, "x": x, "y": y}
+                                 [{"pid": existing[pns[i]]} for i in old])
+                rows = [(ids[pn], name, seq, x, y)
                         for pn, curves in v.curves.items() for name, pts in curves.items()
                         for seq, (x, y) in enumerate(pts)]
                 if rows:
-                    conn.execute(insert(POINT), rows)
+                    _executemany(conn, POINT, ("part_id", "curve", "seq", "x", "y"), rows)
                 points = len(rows)
         return ImportReport(v.file, len(new), len(old), points, v.curves_file, method)
 
     @staticmethod
-    def _insert_bulk(conn, records: list[dict]) -> None:
+    def _insert_bulk(conn, v: cio.Validated, indices: list[int]) -> None:
         # One executemany per category, binding only that category's columns (the rest are NULL).
-        by_category: dict[str, list[dict]] = defaultdict(list)
-        for r in records:
-            by_category[r["category"]].append(r)  # type: ignore[index]
+        by_category: dict[str, list[int]] = defaultdict(list)
+        cats = v.columns["category"]
+        for i in indices:
+            by_category[cats[i]].append(i)  # type: ignore[index]
         for category, group in by_category.items():
             cols = CATEGORY_FIELDS[category]
-            conn.execute(insert(PART), [{c: r[c] for c in cols} for r in group])
+            values = [v.columns[c] for c in cols]
+            _executemany(conn, PART, cols, [tuple(col[i] for col in values) for i in group])
 
     @staticmethod
     def _insert_orm(conn, records: list[dict]) -> None:
@@ -327,7 +330,7 @@ class Catalog:
             return int(conn.execute(q).scalar() or 0)
 
     def _records(self, conn, where: list) -> list[PartRecord]:
-        rows = conn.execute(select(PART.c.id, *_COLUMNS).where(*where)).all()
+        rows = conn.execute(select(*_COLUMNS, PART.c.id).where(*where)).all()
         if not rows:
             return []
         q = select(POINT.c.part_id, POINT.c.curve, POINT.c.x, POINT.c.y).order_by(
@@ -339,10 +342,10 @@ class Catalog:
             curves[pid][name].append((x, y))
         names = list(FIELDS)
         out = []
-        for row in rows:
-            c = curves.get(row[0])
-            out.append(PartRecord._fast(dict(zip(names, row[1:])),
-                                        {k: tuple(v) for k, v in c.items()} if c else {}))
+        fast = PartRecord._fast
+        for row in rows:  # zip stops before the trailing id
+            c = curves.get(row[-1]) if curves else None
+            out.append(fast(dict(zip(names, row)), {k: tuple(v) for k, v in c.items()} if c else None))
         out.sort(key=lambda r: r.part_number)  # code-point order on every database
         return out
 
@@ -463,6 +466,18 @@ class Catalog:
         """sha256 (hex) of the canonical JSON export: equal hashes mean equal catalogs."""
         text = cio.to_json(self.parts(), self.schema_version or CURRENT_VERSION)
         return hashlib.sha256(text.encode("utf-8")).hexdigest()
+
+
+def _executemany(conn, table, cols: tuple[str, ...] | list[str], rows: list[tuple]) -> None:
+    """INSERT ``rows`` (tuples in ``cols`` order) with one executemany of the Core statement compiled
+    for the connection's dialect: no per-row parameter processing, any paramstyle."""
+    compiled = insert(table).compile(dialect=conn.dialect, column_keys=list(cols))
+    if compiled.positional:
+        order = [list(cols).index(name) for name in compiled.positiontup]
+        params = rows if order == list(range(len(cols))) else [tuple(r[j] for j in order) for r in rows]
+    else:
+        params = [dict(zip(cols, r)) for r in rows]
+    conn.exec_driver_sql(compiled.string, params)
 
 
 def _write_atomic(path: Path, text: str) -> None:
