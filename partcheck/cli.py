@@ -65,7 +65,105 @@ def _root(
 
 # ---- BOM matching (partcheck match) -----------------------------------------------------------
 
+_MATCH_STYLES = {"matched": "green", "ambiguous": "yellow", "unmatched": "red", "conflict": "bold red",
+                 "not_fitted": "dim"}
+
+
+@app.command("match")
+def match_command(
+    bom: Annotated[str, typer.Argument(help="The BOM: CSV, TSV, semicolon text or XLSX.", show_default=False)],
+    db: Annotated[Optional[str], typer.Option("--db", help="Catalog file or database URL (default: PARTCHECK_DB "
+                                                           "or the per-user catalog).")] = None,
+    format: Annotated[str, typer.Option("--format", help="table, json or csv.")] = "table",
+    pin: Annotated[Optional[list[str]], typer.Option("--pin", help="REF=PART: use this catalog part for the "
+                                                                   "reference (repeatable; always wins).")] = None,
+    columns: Annotated[Optional[str], typer.Option("--columns", help="Header overrides, e.g. "
+                                                                     "ref=Designator,value=Val.")] = None,
+    sheet: Annotated[Optional[str], typer.Option("--sheet", help="XLSX sheet to read (default: the first).")] = None,
+) -> None:
+    """Match every line of BOM to a catalog part and say how sure each match is.
+
+    Each line gets a status (matched, ambiguous, unmatched, conflict, not_fitted), the catalog
+    part, a score 0-100, the method (exact, normalized, fuzzy, pinned) and a reason in words.
+    Exit code 0 when every fitted line is matched, 1 when any is not, 2 when the BOM or the
+    catalog cannot be read.
+    """
+    import csv as _csv
+    import json as _json
+
+    from rich.table import Table
+    from rich.text import Text
+
+    from .bom.columns import parse_column_overrides
+    from .bom.export import neutralise
+    from .bom.match import match_bom_file, parse_pins
+
+    if format not in ("table", "json", "csv"):
+        raise typer.BadParameter(f"{format!r} is not a format; expected table, json or csv", param_hint="--format")
+    report = match_bom_file(bom, db=db, pins=parse_pins(pin), columns=parse_column_overrides(columns), sheet=sheet)
+    if format == "json":
+        sys.stdout.write(_json.dumps(report.to_dict(), indent=2, ensure_ascii=False) + "\n")
+    elif format == "csv":
+        writer = _csv.writer(sys.stdout, lineterminator="\n")
+        writer.writerow(["line", "refs", "qty", "text", "status", "part_number", "score", "method", "reason",
+                         "candidates"])
+        for m in report.matches:
+            writer.writerow([neutralise(v) for v in (
+                m.line, " ".join(m.refs), "" if m.qty is None else m.qty, m.text, m.status, m.part_number or "",
+                f"{m.score:.1f}", m.method or "", m.reason, " ".join(f"{pn}:{s:.1f}" for pn, s in m.candidates))])
+    else:
+        table = Table("line", "refs", "qty", "status", "part", "score", "method", "reason", title=report.bom.path)
+        for m in report.matches:
+            style = _MATCH_STYLES.get(m.status, "")
+            table.add_row(str(m.line), Text(", ".join(m.refs)), "" if m.qty is None else str(m.qty),
+                          Text(m.status, style=style), Text(m.part_number or "—"), f"{m.score:.1f}",
+                          m.method or "—", Text(m.reason), style=None)
+        out.print(table)
+        counts = ", ".join(f"{n} {s}" for s, n in report.counts().items() if n)
+        out.print(Text(f"{len(report.matches)} lines: {counts}"))
+    for notice in report.bom.notices:
+        err.print(Text(f"note: {notice}"))
+    for m in report.matches:
+        for w in m.warnings:
+            err.print(Text(f"warning: line {m.line}: {w}"))
+    raise typer.Exit(report.exit_code)
+
+
 # ---- stress engine (partcheck stress) ---------------------------------------------------------
+
+
+@app.command("stress")
+def stress_command(
+    design: Annotated[str, typer.Argument(help="The design file (TOML).", show_default=False)],
+    format: Annotated[str, typer.Option("--format", help="table or json.")] = "table",
+) -> None:
+    """Compute what each power-stage role sees at every corner of DESIGN.
+
+    The table shows, per role, each stress at its worst corner; --format json prints every corner
+    with its role stresses in SI units (°C for temperatures).
+    """
+    import json as _json
+
+    from rich.table import Table
+
+    from .stress.flyback import evaluate
+    from .units import format_quantity
+
+    if format not in ("table", "json"):
+        raise typer.BadParameter(f"{format!r} is not a format; expected table or json", param_hint="--format")
+    result = evaluate(design)
+    if format == "json":
+        out.print(_json.dumps(result.to_dict(), indent=2), markup=False, highlight=False)
+        return
+    modes = ", ".join(f"{c.id} {c.mode} D={c.duty:.3f} f={format_quantity(c.fsw, 'Hz')}" for c in result.corners)
+    out.print(f"{result.design_name}: {modes}", markup=False)
+    table = Table("role", "stress", "worst", "corner")
+    for row in result.worst():
+        table.add_row(row["role"], row["stress"], format_quantity(row["value"], row["kind"]), row["corner"] or "—")
+    out.print(table)
+    for note in result.notes:
+        out.print(f"note: {note}", markup=False)
+
 
 # ---- policy (partcheck policy ...) ------------------------------------------------------------
 
