@@ -112,7 +112,12 @@ def match_command(
                 m.line, " ".join(m.refs), "" if m.qty is None else m.qty, m.text, m.status, m.part_number or "",
                 f"{m.score:.1f}", m.method or "", m.reason, " ".join(f"{pn}:{s:.1f}" for pn, s in m.candidates))])
     else:
-        table = Table("line", "refs", "qty", "status", "part", "score", "method", "reason", title=report.bom.path)
+        table = Table(title=report.bom.path)
+        for name, opts in (("line", {"justify": "right"}), ("refs", {"overflow": "fold", "max_width": 18}),
+                           ("qty", {"justify": "right"}), ("status", {"no_wrap": True}), ("part", {"no_wrap": True}),
+                           ("score", {"justify": "right"}), ("method", {"no_wrap": True}),
+                           ("reason", {"ratio": 1, "min_width": 30})):
+            table.add_column(name, **opts)
         for m in report.matches:
             style = _MATCH_STYLES.get(m.status, "")
             table.add_row(str(m.line), Text(", ".join(m.refs)), "" if m.qty is None else str(m.qty),
