@@ -15,6 +15,8 @@ import math
 from collections.abc import Mapping
 from dataclasses import dataclass
 
+import numpy as np
+
 #: Rds_on temperature coefficient of silicon MOSFETs for the exponential model
 #: Rds(Tj) = Rds25·(1 + α)^(Tj − 25).  ``common practice`` (0.5-0.8 %/K, derating-standards.md §7).
 DEFAULT_RDS_ALPHA_PER_K = 0.007
@@ -30,7 +32,10 @@ RUNAWAY_MARGIN_K = 100.0
 _MODES = {"ccm": "ccm", "dcm": "dcm", "bcm": "bcm", "qr": "bcm", "crm": "bcm"}
 
 
-def _mode(mode: str) -> str:
+def _mode(mode) -> str:
+    """Mode name from ``"ccm"``/``"CCM"``... or the engine's integer codes (0 CCM, 1 DCM, 2 BCM)."""
+    if isinstance(mode, (int, np.integer)) and not isinstance(mode, bool) and 0 <= int(mode) <= 2:
+        return ("ccm", "dcm", "bcm")[int(mode)]
     try:
         return _MODES[mode.strip().lower()]
     except (KeyError, AttributeError):

@@ -127,6 +127,12 @@ def test_thermal_runaway_is_a_flag_not_an_exception():
     assert any("runaway" in n for n in r.notes)
 
 
+def test_engine_mode_codes_and_names_are_accepted():
+    by_code = mosfet_losses(1, 2, 1, 100, 1e5, 0, **SWITCH, t_amb_c=25.0)
+    by_name = mosfet_losses(1, 2, 1, 100, 1e5, "CCM", **SWITCH, t_amb_c=25.0)
+    assert by_code == by_name and by_code.p_sw_on > 0
+
+
 def test_unknown_mode_is_rejected():
     with pytest.raises(ValueError, match="unknown operating mode 'buck'"):
         mosfet_losses(1, 1, 0, 100, 1e5, "buck", **SWITCH, t_amb_c=25.0)
