@@ -362,7 +362,7 @@ def _load(text: str, *, file: str, base_dir: Path, chain: tuple[str, ...]) -> Po
     if "extends" in doc:
         parent = _load_parent(doc["extends"], src, base_dir, chain)
 
-    name = _string(doc, "name", src, default=parent.name if parent else Path(file).stem)
+    name = _string(doc, "name", src, default=Path(file).stem)
     description = _string(doc, "description", src, default=parent.description if parent else "")
     warn = parent.warn if parent else None
     if "warn" in doc:
@@ -385,7 +385,7 @@ def _load(text: str, *, file: str, base_dir: Path, chain: tuple[str, ...]) -> Po
     return Policy(name=name, description=description, rules=tuple(rules.values()), warn=warn,
                   fail_unassessed=fail_unassessed, fail_unmatched=fail_unmatched,
                   origin=src.label,
-                  chain=chain + (parent.chain if parent else ()))
+                  chain=parent.chain if parent else chain)
 
 
 def _load_parent(spec: Any, src: "_Source", base_dir: Path, chain: tuple[str, ...]) -> Policy:
