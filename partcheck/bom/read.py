@@ -242,7 +242,8 @@ def _xlsx_grid(path: Path, sheet: str | None, notices: list[str]) -> tuple[list[
             chosen = sheet
         else:
             raise BomError(f"no sheet named {sheet!r}; the workbook has {', '.join(map(repr, names))}", file=path)
-        frame = book.parse(chosen, header=None, dtype=object, keep_default_na=False, na_filter=False)
+        frame = pd.read_excel(book, sheet_name=chosen, header=None, dtype=object, keep_default_na=False,
+                              na_filter=False)
     grid = []
     for idx, row in enumerate(frame.itertuples(index=False, name=None)):
         grid.append((idx + 1, [_cell_text(v) for v in row]))
@@ -283,8 +284,8 @@ def _find_header(grid, overrides, path) -> tuple[int, dict[str, int]]:
                            file=path)
         row = grid[best_i][1] if best_i >= 0 else next((c for _l, c in grid if any(x.strip() for x in c)), [])
         found = ", ".join(repr(c.strip()) for c in row if c.strip()) or "none"
-        wanted = f"a column named {overrides['ref']!r} (from --columns)" if "ref" in overrides else \
-            "a reference column (Reference, Designator, RefDes, Ref, Parts)"
+        wanted = f"column named {overrides['ref']!r} (from --columns)" if "ref" in overrides else \
+            "reference column (Reference, Designator, RefDes, Ref, Parts)"
         raise BomError(f"found no {wanted}; the header row looks like: {found}. "
                        "Name the column with --columns ref=<header>", file=path,
                        line=grid[best_i][0] if best_i >= 0 else None)

@@ -94,7 +94,6 @@ _PACKAGE_RE: Final = re.compile(
 )
 _TOLERANCE_RE: Final = re.compile(r"(?:±|\+/-|\+-)?\s*(\d+(?:[.,]\d+)?)\s*%")
 _FRACTION_WATT_RE: Final = re.compile(r"(?<![\d.])(\d+)\s*/\s*(\d+)\s*W\b")
-_SPLIT_RE: Final = re.compile(r"[\s/|;()\[\]_,]+")
 _SPLIT_DECIMAL_COMMA_RE: Final = re.compile(r"[\s/|;()\[\]_]+|,(?!\d)|(?<!\d),")
 _NUMBER_ONLY_RE: Final = re.compile(r"^[+-]?(?:\d+(?:[.,]\d*)?|[.,]\d+)(?:[eE][+-]?\d+)?$")
 
@@ -188,8 +187,9 @@ def infer_categories(refs: tuple[str, ...], text: str) -> tuple[tuple[str, ...],
 
 
 def _tokens(text: str, decimal_comma: bool) -> list[str]:
-    splitter = _SPLIT_DECIMAL_COMMA_RE if decimal_comma else _SPLIT_RE
-    raw = [t for t in splitter.split(text) if t]
+    # A comma between digits is never a separator: with decimal commas it is the decimal point,
+    # without them "0,47" must fail loudly rather than read as 0 and 47.
+    raw = [t for t in _SPLIT_DECIMAL_COMMA_RE.split(text) if t]
     merged: list[str] = []
     i = 0
     while i < len(raw):
