@@ -304,8 +304,8 @@ _FORMAT_PREFIXES: Final = {-15: "f", -12: "p", -9: "n", -6: "µ", -3: "m", 0: ""
 
 def _trim(mantissa: float, digits: int) -> str:
     text = f"{mantissa:.{digits}g}"
-    if "e" in text:  # .g fell back to exponent form (e.g. 1e+03): spell it out
-        text = f"{mantissa:.{max(digits - 1, 0)}f}"
+    if "e" in text:  # .g fell back to exponent form (e.g. 1e+03): spell out the rounded value
+        text = format(Decimal(text), "f")
     return text
 
 
