@@ -151,11 +151,13 @@ def _solve(op: OperatingPoints) -> dict[str, np.ndarray]:
         beta = 1.0 - vr * gamma / lm  # share of the magnetizing current left after ts [-]
         d_ccm = vr / (vin * lm / lp + vr)  # volt-second balance on Lm (sec. 1.2 with Llk) [D]
         a_bcm = lp / vin + lm / vr  # BCM: T = a·Ipk + td (sec. 1.4) [D]
+        lam = llk / (vin + vr)  # CCM turn-on commutation: tc = λ·Iv, the leakage current rises at (Vin + Vr)/Llk [D]
 
         # Overload corners: the load that brings the switch peak to the limit (sec. 5) [D].
         ipk_lim = op.ilim + vin * op.t_pd / lp
         dip_lim = vin * d_ccm / (lp * op.fsw)
-        pin_fixed = np.where(ipk_lim > dip_lim, vin * d_ccm * (ipk_lim - 0.5 * dip_lim),
+        iv_lim = ipk_lim - dip_lim
+        pin_fixed = np.where(iv_lim > 0, vin * op.fsw * (0.5 * lam * iv_lim**2 + 0.5 * (iv_lim + ipk_lim) * d_ccm / op.fsw),
                              0.5 * lp * ipk_lim**2 * op.fsw)
         f_b = 1.0 / (a_bcm * ipk_lim + td)
         pin_bcm = 0.5 * lp * ipk_lim**2 * np.minimum(f_b, fmax)
@@ -176,18 +178,21 @@ def _solve(op: OperatingPoints) -> dict[str, np.ndarray]:
         fs_clamped = op.boundary & (f_bcm > fmax)
         fs = np.where(fixed, op.fsw, np.minimum(f_bcm, fmax))
         bcm = op.boundary & ~fs_clamped
-        ia = pin / (vin * d_ccm)
         dip = vin * d_ccm / (lp * fs)
+        # CCM valley from the switch charge per cycle Iin·T = tc·Iv/2 + (Iv + dIp/2)·D_ccm·T (sec. 1.2 with tc) [D]
+        r_ccm = (iin := pin / vin) / fs - 0.5 * dip * d_ccm / fs
+        iv_ccm = 2.0 * r_ccm / (d_ccm / fs + np.sqrt((d_ccm / fs) ** 2 + 2.0 * lam * r_ccm))
         ipk_dcm = np.sqrt(2.0 * pin / (lp * fs))  # (sec. 1.3) [M]
-        ipk = np.where(ccm, ia + 0.5 * dip, np.where(bcm, ipk_b, ipk_dcm))
-        iv = np.where(ccm, ia - 0.5 * dip, 0.0)
-        duty = np.where(ccm, d_ccm, lp * ipk * fs / vin)
+        ipk = np.where(ccm, iv_ccm + dip, np.where(bcm, ipk_b, ipk_dcm))
+        iv = np.where(ccm, iv_ccm, 0.0)
+        tc = lam * iv
+        duty = np.where(ccm, d_ccm + tc * fs, lp * ipk * fs / vin)
         period = 1.0 / fs
         ton = duty * period
         toff = period - ton
-        sw_ms = duty * (ipk**2 + ipk * iv + iv**2) / 3.0  # trapezoid RMS² (sec. 1.2) [M]
-        sw_avg = 0.5 * duty * (ipk + iv)
-        iin = pin / vin
+        d_ramp = duty - tc * fs
+        sw_ms = d_ramp * (ipk**2 + ipk * iv + iv**2) / 3.0 + tc * fs * iv**2 / 3.0  # trapezoid RMS² (sec. 1.2) [M]
+        sw_avg = 0.5 * d_ramp * (ipk + iv) + 0.5 * tc * fs * iv
 
         # Leakage reset through the clamp (sec. 2.1) [M].
         ts_p = gamma * ipk
@@ -198,8 +203,9 @@ def _solve(op: OperatingPoints) -> dict[str, np.ndarray]:
         # Secondary side from the output currents: referred charge per cycle q = Psec/(Vr·fs) [D].
         q_ref = psec / (vr * fs)
         dim = vr * toff / lm
-        b = (beta + 1.0) * toff + gamma * dim
-        c = dim * toff + 2.0 * q_ref
+        # charge: ts rise + ramp to the valley over toff − ts + the commutation tail tc; quadratic in x [D]
+        b = (beta + 1.0) * toff + gamma * dim + tc
+        c = dim * (toff + tc) + 2.0 * q_ref
         x_ccm = 2.0 * c / (b + np.sqrt(np.maximum(b * b - 4.0 * gamma * c, 0.0)))  # stable root, = c/b at γ = 0
         x_dcm = np.sqrt(2.0 * psec / (fs * lm * beta))  # energy to the secondary 0.5·Lm·β·x² per cycle [D]
         sec_ccm = ccm & (x_ccm - dim > 0)
@@ -208,8 +214,9 @@ def _solve(op: OperatingPoints) -> dict[str, np.ndarray]:
         ts = gamma * x
         im_ts = beta * x
         t2 = np.where(sec_ccm, toff - ts, lm * im_ts / vr)
-        avg_ref = fs * (0.5 * im_ts * ts + 0.5 * (im_ts + isv) * t2)
-        ms_ref = fs * (ts * im_ts**2 / 3.0 + t2 * (im_ts**2 + im_ts * isv + isv**2) / 3.0)
+        tc_s = np.where(sec_ccm, tc, 0.0)
+        avg_ref = fs * (0.5 * im_ts * ts + 0.5 * (im_ts + isv) * t2 + 0.5 * isv * tc_s)
+        ms_ref = fs * (ts * im_ts**2 / 3.0 + t2 * (im_ts**2 + im_ts * isv + isv**2) / 3.0 + tc_s * isv**2 / 3.0)
         scale = iout / avg_ref[:, None]  # charge balance per output; = k_j·n_j with proportional sharing (sec. 7)
         is_rms = scale * np.sqrt(ms_ref)[:, None]
         if passes == 2:  # winding loss passes through Lm: fold it into an effective drop (sec. 0) [D]
@@ -223,21 +230,25 @@ def _solve(op: OperatingPoints) -> dict[str, np.ndarray]:
     # Output ripple: charge above Io on C plus the ESR step (sec. 3.2) [M]/[D].
     pk = is_pk_sec
     sv = scale * isv[:, None]
-    q_plus = _positive_area(-iout, pk - iout, ts[:, None]) + _positive_area(pk - iout, sv - iout, t2[:, None])
+    q_plus = (_positive_area(-iout, pk - iout, ts[:, None]) + _positive_area(pk - iout, sv - iout, t2[:, None])
+              + _positive_area(sv - iout, -iout, tc_s[:, None]))
     vripple = q_plus / op.cout + np.nan_to_num(op.esr) * pk
 
     clamped = has_lk & np.isfinite(vc)
+    # Reflected plateau just after turn-off: the peak secondary current adds its drop in the winding
+    # resistance and the bank's ESR (sec. 2.1, n·(Vo + Vf + Ispk·Rsec)) [M]/[D].
+    vr_pk = np.max(op.n * (op.vout + vf_eff + (op.rsec + np.nan_to_num(op.esr)) * is_pk_sec), axis=1)
     mode = np.where(ccm, CCM, np.where(bcm, BCM, DCM))
     return {
         "mode": mode, "fs": fs, "fs_clamped": fs_clamped, "duty": duty, "d2": (ts + t2) * fs,
-        "ton": ton, "ts": ts, "t2": t2, "vr": vr, "pin": pin, "po": po, "psec": psec, "p_clamp": p_clamp,
+        "ton": ton, "tc": tc_s, "ts": ts, "t2": t2, "vr": vr, "pin": pin, "po": po, "psec": psec, "p_clamp": p_clamp,
         "iin": iin, "ipk": ipk, "iv": iv, "sw_rms": np.sqrt(sw_ms), "sw_avg": sw_avg, "icin": icin,
         "clamp_avg": clamp_avg, "clamp_rms": np.sqrt(clamp_ms), "ts_primary": ts_p,
         "pri_rms": np.sqrt(sw_ms + clamp_ms), "sec_pk_ref": im_ts, "sec_v_ref": isv, "lp": lp,
-        "sw_vpk": vin + np.where(clamped, vc, vr),  # (sec. 2.1) [M]
+        "sw_vpk": vin + np.where(clamped, vc, vr_pk),  # (sec. 2.1) [M]
         "clamp_v": np.where(clamped, vc, vr), "clamp_diode_vr": vin + np.where(np.isfinite(vc), vc, vr),
         "secondary_fit": (ts <= toff * (1 + 1e-9)) & (beta > 0), "beta": beta,
-        "iout_j": iout, "vout_j": op.vout, "scale_j": scale, "is_pk_j": is_pk, "is_rms_j": is_rms,
+        "vin_dc": vin, "iout_j": iout, "vout_j": op.vout, "scale_j": scale, "is_pk_j": is_pk, "is_rms_j": is_rms,
         "is_avg_j": scale * avg_ref[:, None], "icout_j": icout, "vripple_j": vripple,
         "vrect_j": vin[:, None] / op.n + op.vout,  # (sec. 2.2) [M]
     }
@@ -253,20 +264,23 @@ def waveforms_at(op: OperatingPoints, sol: dict[str, np.ndarray], i: int,
     """
     g = {k: float(np.asarray(v)[i]) if np.ndim(v) == 1 else v[i] for k, v in sol.items()}
     period = 1.0 / g["fs"]
-    ton, ts, t2, tsp = g["ton"], g["ts"], g["t2"], g["ts_primary"]
+    ton, tc, ts, t2, tsp = g["ton"], g["tc"], g["ts"], g["t2"], g["ts_primary"]
     ipk, iv = g["ipk"], g["iv"]
-    switch = PiecewiseLinear(np.array([0.0, ton, ton, period]), np.array([iv, ipk, 0.0, 0.0]))
+    switch = PiecewiseLinear(np.array([0.0, tc, ton, ton, period]), np.array([0.0 if tc > 0 else iv, iv, ipk, 0.0, 0.0]))
     clamp = PiecewiseLinear(np.array([0.0, ton, ton, ton + tsp, period]), np.array([0.0, 0.0, ipk, 0.0, 0.0]))
     # Switch and clamp conduct one after the other: the winding carries switch then clamp current.
-    primary = PiecewiseLinear(np.array([0.0, ton, ton, ton + tsp, period]), np.array([iv, ipk, ipk, 0.0, 0.0]))
+    primary = PiecewiseLinear(np.array([0.0, tc, ton, ton, ton + tsp, period]),
+                              np.array([switch.y[0], iv, ipk, ipk, 0.0, 0.0]))
     if g["mode"] == CCM:
-        mag = PiecewiseLinear(np.array([0.0, ton, period]), np.array([iv, ipk, iv]))
+        iv_m = ipk - g["vr"] * (period - ton) / float(op.lm[i])
+        mag = PiecewiseLinear(np.array([0.0, tc, ton, period]), np.array([iv_m, iv, ipk, iv_m]))
     else:
         t_demag = min(ton + float(op.lm[i]) * ipk / g["vr"], period)
         mag = PiecewiseLinear(np.array([0.0, ton, t_demag, period]), np.array([0.0, ipk, 0.0, 0.0]))
     end = min(ton + ts + t2, period)
-    ref_t = np.array([0.0, ton, ton + ts, end, period])
-    ref_y = np.array([0.0, 0.0, g["sec_pk_ref"], g["sec_v_ref"], g["sec_v_ref"] if end >= period else 0.0])
+    sv = g["sec_v_ref"]
+    ref_t = np.array([0.0, tc, ton, ton + ts, end, period])
+    ref_y = np.array([sv, 0.0, 0.0, g["sec_pk_ref"], sv, sv if end >= period else 0.0])
     waves = {"switch": switch, "clamp": clamp, "primary": primary, "magnetizing": mag,
              "input_cap": PiecewiseLinear(switch.t, switch.y - g["sw_avg"])}
     for j, name in enumerate(names):
@@ -397,7 +411,6 @@ def _prepare(design):
     specs = _corners.build_corners(design)
     op = _corners.operating_points(design, specs)
     sol = solve(op)
-    sol["vin_dc"] = op.vin
     keep, notes = validity.check(design, specs, op, sol)
     return design, specs, op, sol, keep, notes
 
@@ -459,7 +472,6 @@ def sweep(design, vin) -> dict[str, np.ndarray]:
     specs = [_corners.CornerSpec("sweep", float(v), _corners.FULL, design.environment.ambient_max) for v in vin]
     op = _corners.operating_points(design, specs)
     sol = solve(op)
-    sol["vin_dc"] = op.vin
     out: dict[str, list] = {}
     for i in range(len(vin)):
         for role, stresses in role_stresses(design, sol, i).items():
