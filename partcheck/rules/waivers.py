@@ -57,11 +57,11 @@ class Waiver:
 def parse_waivers(raw: Iterable[dict[str, Any]] | None, *, file: str | None = None) -> list[Waiver]:
     """Validate the design file's ``[[waiver]]`` tables.
 
-    Errors are :class:`PolicyError` with ``key = "waiver[N].<key>"`` (N counts from 1, in file
+    Errors are :class:`PolicyError` with ``key = "waiver[N].<key>"`` (N counts from 0 in file
     order) and say what was expected.
     """
     waivers: list[Waiver] = []
-    for index, entry in enumerate(raw or (), 1):
+    for index, entry in enumerate(raw or ()):
         where = f"waiver[{index}]"
         if not isinstance(entry, dict):
             raise PolicyError("a waiver must be a table ([[waiver]])", file=file, key=where)
