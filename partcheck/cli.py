@@ -63,6 +63,254 @@ def _root(
 
 # ---- catalog commands (partcheck catalog ...) -------------------------------------------------
 
+catalog_app = typer.Typer(
+    no_args_is_help=True,
+    help="The parts catalog: the ratings of the team's approved parts (SQLite file or database URL).",
+)
+app.add_typer(catalog_app, name="catalog")
+
+_CatDb = Annotated[
+    Optional[str],
+    typer.Option(
+        "--db",
+        envvar="PARTCHECK_DB",
+        show_default=False,
+        help="The catalog: a file path (SQLite) or a SQLAlchemy URL. "
+        "Default: $XDG_DATA_HOME/partcheck/catalog.sqlite (~/.local/share/partcheck/catalog.sqlite).",
+    ),
+]
+_CatFormat = Annotated[str, typer.Option("--format", help="table or json.")]
+
+
+def _cat_choice(value: str, allowed: tuple[str, ...], option: str) -> str:
+    if value not in allowed:
+        raise typer.BadParameter(f"{value!r} is not one of {', '.join(allowed)}", param_hint=option)
+    return value
+
+
+def _cat_pairs(items: Optional[list[str]], option: str) -> dict[str, str]:
+    pairs: dict[str, str] = {}
+    for item in items or []:
+        name, sep, value = item.partition("=")
+        if not sep or not name.strip():
+            raise typer.BadParameter(f"{item!r} is not COLUMN=VALUE (for example vds_max=100V)", param_hint=option)
+        pairs[name.strip()] = value.strip()
+    return pairs
+
+
+def _cat_value(record, name: str) -> str:
+    from .catalog.models import FIELDS
+    from .units import format_quantity
+
+    value = getattr(record, name)
+    if value is None:
+        return "—"
+    spec = FIELDS[name]
+    if spec.text:
+        return str(value)
+    if spec.kind is None:
+        return f"{value:g}"
+    return format_quantity(value, spec.kind)
+
+
+def _cat_json(obj) -> None:
+    from .catalog.io import dumps
+
+    sys.stdout.write(dumps(obj))
+
+
+def _cat_parts_table(records) -> "object":
+    from rich.table import Table
+
+    from .catalog.models import SUMMARY_FIELDS
+
+    table = Table("part number", "type", "ratings", "status", "description")
+    for column in table.columns[:3]:
+        column.no_wrap = True
+    for r in records:
+        ratings = "\n".join(f"{n} {_cat_value(r, n)}" for n in SUMMARY_FIELDS[r.category] if getattr(r, n) is not None)
+        table.add_row(r.part_number, f"{r.category}\n{r.subtype or '—'}", ratings or "—", r.status or "approved",
+                      r.description or "")
+    return table
+
+
+@catalog_app.command("init")
+def catalog_init(db: _CatDb = None) -> None:
+    """Create an empty catalog (or bring an existing one to the current schema); safe to repeat."""
+    from .catalog import open_catalog
+
+    with open_catalog(db, create=True) as cat:
+        cat.init()
+        out.print(f"catalog ready at {cat.location} (schema version {cat.schema_version}, "
+                  f"{cat.count()} parts)", markup=False)
+
+
+@catalog_app.command("add")
+def catalog_add(
+    part: Annotated[str, typer.Argument(help="The new part number.", show_default=False)],
+    category: Annotated[str, typer.Option("--category", help="switch, diode, clamp, capacitor, resistor, magnetic, "
+                                          "optocoupler or reference.", show_default=False)],
+    subtype: Annotated[Optional[str], typer.Option("--subtype", help="Subtype within the category.")] = None,
+    description: Annotated[Optional[str], typer.Option("--description", help="Free text.")] = None,
+    package: Annotated[Optional[str], typer.Option("--package", help="Package or footprint.")] = None,
+    notes: Annotated[Optional[str], typer.Option("--notes", help="Free text.")] = None,
+    status: Annotated[Optional[str], typer.Option("--status", help="approved, restricted or obsolete.")] = None,
+    set_: Annotated[Optional[list[str]], typer.Option("--set", help="A rating as COLUMN=VALUE, units allowed "
+                                                      "(vds_max=100V); repeat for more.")] = None,
+    update: Annotated[bool, typer.Option("--update", help="Replace the part if it exists.")] = False,
+    db: _CatDb = None,
+) -> None:
+    """Add one part from options, for example: add SW-100 --category switch --set vds_max=100V --set id_max=5A."""
+    from .catalog import open_catalog
+
+    fields: dict[str, str] = {"part_number": part, "category": category}
+    for name, value in (("subtype", subtype), ("description", description), ("package", package),
+                        ("notes", notes), ("status", status)):
+        if value is not None:
+            fields[name] = value
+    fields.update(_cat_pairs(set_, "--set"))
+    with open_catalog(db, create=True) as cat:
+        record = cat.add(fields, update=update)
+        out.print(f"added {record.part_number} ({record.category}) to {cat.location}", markup=False)
+
+
+@catalog_app.command("import")
+def catalog_import(
+    file: Annotated[str, typer.Argument(help="CSV, TSV, XLSX or JSON file; curves from X.curves.csv beside X.csv.",
+                                        show_default=False)],
+    update: Annotated[bool, typer.Option("--update", help="Replace parts that are already in the catalog.")] = False,
+    db: _CatDb = None,
+) -> None:
+    """Import parts all-or-nothing: every bad cell is reported with its line and column, and nothing is written."""
+    from .catalog import open_catalog
+
+    with open_catalog(db, create=True) as cat:
+        report = cat.import_file(file, update=update)
+        out.print(f"imported {report} into {cat.location}", markup=False)
+
+
+@catalog_app.command("export")
+def catalog_export(
+    target: Annotated[str, typer.Argument(help="Output file, or - for standard output.", show_default=False)],
+    format: Annotated[Optional[str], typer.Option("--format", help="csv or json (default: from the file name; "
+                                                  "csv for -).", show_default=False)] = None,
+    db: _CatDb = None,
+) -> None:
+    """Export every part, sorted by part number; importing the export and exporting again gives identical bytes."""
+    from .catalog import open_catalog
+
+    if format is not None:
+        _cat_choice(format, ("csv", "json"), "--format")
+    with open_catalog(db, create=False) as cat:
+        if target == "-":
+            report = cat.export(sys.stdout, format or "csv")
+        else:
+            report = cat.export(target, format)
+    if report.curves_skipped:
+        err.print(f"warning: {report.curves_skipped} curve points were not written: CSV on standard output "
+                  "carries no curves; export to a file (X.curves.csv is written beside it) or use --format json",
+                  markup=False)
+    if target != "-":
+        side = f" and {report.curve_points} curve points to {report.curves_file}" if report.curves_file else ""
+        out.print(f"exported {report.parts} parts to {target}{side}", markup=False)
+
+
+@catalog_app.command("list")
+def catalog_list(
+    category: Annotated[Optional[str], typer.Option("--category", help="Only this category.")] = None,
+    subtype: Annotated[Optional[str], typer.Option("--subtype", help="Only this subtype.")] = None,
+    minimum: Annotated[Optional[list[str]], typer.Option("--min", help="A minimum rating as COLUMN=VALUE "
+                                                         "(v_rated=50V); repeat for more.")] = None,
+    format: _CatFormat = "table",
+    db: _CatDb = None,
+) -> None:
+    """List parts (sorted by part number) with their headline ratings, filtered by category, subtype and minimums."""
+    from .catalog import open_catalog
+    from .catalog.io import part_to_json
+
+    _cat_choice(format, ("table", "json"), "--format")
+    with open_catalog(db, create=False) as cat:
+        records = cat.parts(category=category, subtype=subtype, min_ratings=_cat_pairs(minimum, "--min"))
+    if format == "json":
+        _cat_json([part_to_json(r) for r in records])
+        return
+    out.print(_cat_parts_table(records))
+    out.print(f"{len(records)} part{'s' if len(records) != 1 else ''}", markup=False)
+
+
+@catalog_app.command("show")
+def catalog_show(
+    part: Annotated[str, typer.Argument(help="The exact part number.", show_default=False)],
+    format: _CatFormat = "table",
+    db: _CatDb = None,
+) -> None:
+    """Show every rating and curve of one part."""
+    from rich.table import Table
+
+    from .catalog import open_catalog
+    from .catalog.io import part_to_json
+    from .catalog.models import CATEGORY_FIELDS, CURVES, FIELDS
+    from .units import format_quantity
+
+    _cat_choice(format, ("table", "json"), "--format")
+    with open_catalog(db, create=False) as cat:
+        record = cat.get(part)
+    if format == "json":
+        _cat_json(part_to_json(record))
+        return
+    table = Table("column", "value", "meaning", title=record.part_number)
+    for name in CATEGORY_FIELDS[record.category]:
+        table.add_row(name, _cat_value(record, name), FIELDS[name].doc)
+    out.print(table)
+    for name, points in record.curves.items():
+        spec = CURVES[name]
+        text = ", ".join(f"{format_quantity(x, spec.x_kind)} → {y:g}" for x, y in points)
+        out.print(f"curve {name} ({spec.doc}): {text}", markup=False)
+
+
+@catalog_app.command("find")
+def catalog_find(
+    text: Annotated[str, typer.Argument(help="Part of a part number or description.", show_default=False)],
+    limit: Annotated[int, typer.Option("--limit", help="At most this many results.")] = 10,
+    category: Annotated[Optional[str], typer.Option("--category", help="Only this category.")] = None,
+    format: _CatFormat = "table",
+    db: _CatDb = None,
+) -> None:
+    """Fuzzy search over part numbers and descriptions, best match first."""
+    from rich.table import Table
+
+    from .catalog import open_catalog
+    from .catalog.io import part_to_json
+
+    _cat_choice(format, ("table", "json"), "--format")
+    with open_catalog(db, create=False) as cat:
+        hits = cat.find(text, limit=limit, category=category)
+    if format == "json":
+        _cat_json([{"score": score, "part": part_to_json(r)} for r, score in hits])
+        return
+    if not hits:
+        out.print(f"no part matches {text!r}", markup=False)
+        return
+    table = Table("score", "part number", "category", "subtype", "description")
+    table.columns[1].no_wrap = True
+    for r, score in hits:
+        table.add_row(f"{score:.0f}", r.part_number, r.category, r.subtype or "—", r.description or "")
+    out.print(table)
+
+
+@catalog_app.command("remove")
+def catalog_remove(
+    part: Annotated[str, typer.Argument(help="The exact part number.", show_default=False)],
+    db: _CatDb = None,
+) -> None:
+    """Remove one part and its curves from the catalog."""
+    from .catalog import open_catalog
+
+    with open_catalog(db, create=False) as cat:
+        record = cat.remove(part)
+        out.print(f"removed {record.part_number} from {cat.location}", markup=False)
+
+
 # ---- BOM matching (partcheck match) -----------------------------------------------------------
 
 _MATCH_STYLES = {"matched": "green", "ambiguous": "yellow", "unmatched": "red", "conflict": "bold red",
@@ -241,6 +489,109 @@ def policy_validate(
 
 
 # ---- check, report and demo -------------------------------------------------------------------
+
+_STATUS_STYLE = {"fail": "bold red", "unmatched": "red", "not_assessed": "magenta", "warn": "yellow",
+                 "waived": "cyan", "pass": "green"}
+
+
+def _print_findings(result) -> None:
+    from rich.table import Table
+    from rich.text import Text
+
+    from .pipeline import affected
+    from .units import format_quantity
+
+    table = Table("status", "refs", "part", "parameter", "stress", "limit", "rating", "use", "corner", "rule")
+    shown = affected(result.findings)
+    for f in shown:
+        kind = f.get("unit")
+        util = f.get("utilization")
+        table.add_row(Text(f["status"].upper(), style=_STATUS_STYLE.get(f["status"], "")), ", ".join(f["refs"]),
+                      f.get("part_number") or "—", f.get("parameter") or "—", format_quantity(f.get("stress"), kind),
+                      format_quantity(f.get("limit"), kind), format_quantity(f.get("rating"), kind),
+                      f"{util:.0%}" if util is not None else "—", f.get("corner") or "—", f.get("rule") or "—")
+    if shown:
+        out.print(table)
+    for f in shown:
+        if f["status"] == "fail" and f.get("alternatives"):
+            alts = ", ".join(f"{a['part_number']} (margin {a['min_margin']:.0%})" for a in f["alternatives"])
+            out.print(Text(f"  order instead of {', '.join(f['refs'])} ({f['part_number']}): {alts}"))
+        elif f["status"] in ("not_assessed", "unmatched") and f.get("detail"):
+            out.print(Text(f"  {', '.join(f['refs'])}: {f['detail']}"))
+
+
+def _print_verdict(result) -> None:
+    from rich.text import Text
+
+    counts = ", ".join(f"{n} {s}" for s, n in result.counts().items() if n)
+    origin = {"default": "the shipped default: no --policy and none in the design file",
+              "design": "named in the design file", "option": "from --policy"}[result.policy_origin]
+    out.print(Text(f"policy: {result.policy} ({origin})"))
+    style = "bold green" if result.verdict == "pass" else "bold red"
+    out.print(Text(f"{result.design}: {result.verdict.upper()} ({counts})", style=style))
+
+
+@app.command("check")
+def check_command(
+    design: Annotated[str, typer.Argument(help="The design file (TOML).", show_default=False)],
+    bom: Annotated[Optional[str], typer.Option("--bom", help="The BOM (default: the design file's bom).")] = None,
+    policy: Annotated[Optional[str], typer.Option("--policy", help="A preset name or a policy file.")] = None,
+    db: Annotated[Optional[str], typer.Option("--db", envvar="PARTCHECK_DB", help="Catalog path or URL.")] = None,
+    report: Annotated[Optional[str], typer.Option("--report", help="Write the HTML report here.")] = None,
+    annotate: Annotated[Optional[str], typer.Option("--annotate", help="Write the BOM with results (.csv/.xlsx).")] = None,
+    pin: Annotated[Optional[list[str]], typer.Option("--pin", help="REF=PART: use this catalog part for REF.")] = None,
+    format: Annotated[str, typer.Option("--format", help="table or json.")] = "table",
+) -> None:
+    """Check every part of DESIGN's BOM against the derating policy at its worst corner.
+
+    Exit code 0 when the verdict is pass, 1 when it is fail, 2 on bad input.
+    """
+    from .bom.match import parse_pins
+    from .pipeline import check, write_annotated_bom
+
+    if format not in ("table", "json"):
+        raise typer.BadParameter(f"{format!r} is not a format; expected table or json", param_hint="--format")
+    result = check(design, bom=bom, policy=policy, db=db, pins=parse_pins(pin), command=" ".join(sys.argv))
+    if format == "json":
+        out.print(result.to_json(), markup=False, highlight=False)
+    else:
+        _print_findings(result)
+        _print_verdict(result)
+    if report:
+        from .report.html import write_html
+
+        err.print(f"report: {write_html(result, report)}", markup=False)
+    if annotate:
+        err.print(f"annotated BOM: {write_annotated_bom(result, annotate)}", markup=False)
+    raise typer.Exit(0 if result.verdict == "pass" else 1)
+
+
+@app.command("report")
+def report_command(
+    result_json: Annotated[str, typer.Argument(help="A result saved with `partcheck check --format json`.")],
+    out_path: Annotated[str, typer.Option("--out", help="The HTML file to write.")] = "report.html",
+) -> None:
+    """Render a saved check result as the self-contained HTML design-review report."""
+    from .report.html import write_html
+    from .result import CheckResult
+
+    out.print(str(write_html(CheckResult.load(result_json), out_path)), markup=False)
+
+
+@app.command("demo")
+def demo_command(
+    out_dir: Annotated[str, typer.Option("--out", help="Folder for the demo reports.")] = "partcheck-demo",
+    scenario: Annotated[Optional[list[str]], typer.Option("--scenario", help="Only this scenario (repeatable).")] = None,
+) -> None:
+    """Check the bundled demo converters against a temporary seeded catalog and write their reports.
+
+    The demo data (designs, BOMs, catalog) is invented; your own catalog is not opened.
+    """
+    from .demo import SCENARIOS, run_demo
+
+    for run in run_demo(out_dir, tuple(scenario) if scenario else SCENARIOS):
+        _print_verdict(run.result)
+        out.print(f"report: {run.report.resolve()}", markup=False)
 
 
 def main() -> None:

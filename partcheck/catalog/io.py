@@ -20,6 +20,7 @@ import csv
 import io
 import json
 import math
+import re
 from dataclasses import dataclass
 from itertools import compress
 from pathlib import Path
@@ -104,11 +105,14 @@ class Validated:
         return [dict(zip(FIELDS, row)) for row in rows]
 
 
+_ORDER = {name: i for i, name in enumerate([*FIELDS, *CURVE_COLUMNS])}
+
+
 def raise_problems(file: str, problems: list[Problem], verb: str = "imported") -> None:
     """Raise one :class:`CatalogInputError` listing ``problems`` (sorted by line), if any."""
     if not problems:
         return
-    problems = sorted(problems, key=lambda p: (p.file or "", p.line or 0, p.key or "", p.column or ""))
+    problems = sorted(problems, key=lambda p: (p.file or "", p.line or 0, p.key or "", _ORDER.get(p.column, 99)))
     if len(problems) == 1:
         p = problems[0]
         exc = CatalogInputError(
@@ -607,8 +611,13 @@ def _validate_curves(points, category: dict[str, str | None], file: str, problem
     out: dict[str, dict[str, list[tuple[float, float]]]] = {pn: {} for pn in category}
     sfile = file if side else None
 
-    def bad(msg, line, column, key):
+    first_point: dict[tuple[str, str], tuple[int | None, str | None]] = {}
+    spoiled: set[tuple[str, str]] = set()  # curves with a bad point: "one point" would be a follow-on error
+
+    def bad(msg, line, column, key, curve=None):
         problems.append(Problem(msg, line, column, key, sfile))
+        if curve is not None:
+            spoiled.add(curve)
 
     for pn, name, xcell, ycell, line, key in points:
         if not pn:
@@ -625,12 +634,13 @@ def _validate_curves(points, category: dict[str, str | None], file: str, problem
         if cat is not None and cat not in spec.categories:
             bad(f"a {name} curve is for {', '.join(spec.categories)}, not for {cat} {pn!r}", line, "curve", key)
             continue
+        first_point.setdefault((pn, name), (line, key))
         try:
             if _is_empty(xcell):
                 raise QuantityError("x is empty")
             x = parse_cell(xcell, spec.x_kind)
         except QuantityError as exc:
-            bad(exc.message, line, "x", key)
+            bad(exc.message, line, "x", key, (pn, name))
             continue
         try:
             if _is_empty(ycell):
@@ -639,19 +649,20 @@ def _validate_curves(points, category: dict[str, str | None], file: str, problem
             if y < 0:
                 raise QuantityError(f"{ycell!r} is not allowed: y is a multiplier or fraction and cannot be negative")
         except QuantityError as exc:
-            bad(exc.message, line, "y", key)
+            bad(exc.message, line, "y", key, (pn, name))
             continue
         curve = out[pn].setdefault(name, [])
         if curve and not x > curve[-1][0]:
             bad(f"x {format_quantity(x, spec.x_kind)} does not increase on the previous point's "
                 f"{format_quantity(curve[-1][0], spec.x_kind)}; list the points of a curve in increasing x",
-                line, "x", key)
+                line, "x", key, (pn, name))
             continue
         curve.append((x, y))
     for pn, curves in out.items():
         for name, pts in curves.items():
-            if len(pts) == 1:
-                bad(f"the {name} curve of {pn!r} has one point; a curve needs at least two", None, "curve", None)
+            if len(pts) == 1 and (pn, name) not in spoiled:
+                line, key = first_point[(pn, name)]
+                bad(f"the {name} curve of {pn!r} has one point; a curve needs at least two", line, "curve", key)
     return {pn: {name: tuple(pts) for name, pts in sorted(c.items(), key=lambda kv: list(CURVES).index(kv[0]))}
             for pn, c in out.items()}
 
@@ -703,4 +714,13 @@ def part_to_json(record: PartRecord) -> dict[str, object]:
 def to_json(records: Iterable[PartRecord], schema_version: int) -> str:
     """The canonical JSON export (sorted keys within a fixed layout, floats as repr, one trailing newline)."""
     doc = {"format": FORMAT_NAME, "schema_version": schema_version, "parts": [part_to_json(r) for r in records]}
-    return json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+    return dumps(doc)
+
+
+_POINT_RE = re.compile(r"\[\s+(-?[0-9][0-9.eE+-]*),\s+(-?[0-9][0-9.eE+-]*)\s+\]")
+
+
+def dumps(obj: object) -> str:
+    """Indented JSON with each curve point ``[x, y]`` kept on one line (JSON strings cannot hold a raw
+    newline, so only number pairs are folded)."""
+    return _POINT_RE.sub(r"[\1, \2]", json.dumps(obj, indent=2, ensure_ascii=False, allow_nan=False)) + "\n"

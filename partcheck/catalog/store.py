@@ -232,10 +232,10 @@ class Catalog:
 
     def add(self, fields: dict[str, str | float], *, update: bool = False) -> PartRecord:
         """Add one part from column values (text with units, or SI numbers); returns it as stored."""
-        table = cio.Table("", list(fields), [list(fields.values())], [None], None, ["the part"])
+        table = cio.Table("", list(fields), [list(fields.values())], [None], None)
         validated = cio.validate(table, None, existing=self._existing(), update=update, verb="added")
         self._write(validated, update=update)
-        return self.get(str(validated.records[0]["part_number"]))
+        return self.get(str(validated.columns["part_number"][0]))
 
     def import_file(self, path: str | os.PathLike[str], *, update: bool = False,
                     method: Literal["bulk", "orm"] = "bulk") -> ImportReport:
@@ -378,7 +378,7 @@ class Catalog:
             except CatalogInputError:
                 raise
             except ValueError as exc:
-                raise CatalogInputError(getattr(exc, "message", str(exc)), key=name) from None
+                raise CatalogInputError(getattr(exc, "message", str(exc)), column=name) from None
             where.append(PART.c[name] >= minimum)
         with self._conn(write=False) as conn:
             return self._records(conn, where)
