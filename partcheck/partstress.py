@@ -1,0 +1,459 @@
+"""Role stresses to part stresses: what each BOM part sees at each corner, beside its rating.
+
+The engine (:mod:`partcheck.stress.flyback`) answers per *role* (the switch, the rectifier of
+the 5 V output, the output bank...).  This module turns that into per-*part* stress items using
+the catalog record of each part: a capacitor bank's current is split by the parts' own
+impedances, a ceramic's capacitance is taken at its DC bias, a switch's loss at its own junction
+temperature.  The output is a list of :class:`~partcheck.rules.evaluate.StressItem` (one per
+part × parameter × corner) that the rules compare with the policy.
+
+It wires stress models to catalog records; it reads no files and knows no policy except which
+catalog column a rule compares with (:func:`rating_column`).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any, Callable, Iterable, Sequence
+
+from .rules.evaluate import StressItem
+from .rules.policy import DEFAULT_RATINGS
+from .stress import capacitors as caps_model
+from .stress import feedback as fb_model
+from .stress import semiconductors as semi
+from .stress.waveform import PiecewiseLinear
+
+#: Gate drive assumed when the design file gives none (``[feedback]`` has no gate keys):
+#: sink/source current [A] and drive voltage [V].  Common practice for a controller's driver.
+DEFAULT_GATE_CURRENT_A = 1.0
+DEFAULT_GATE_VOLTAGE_V = 10.0
+#: Optocoupler LED forward drop [V] and shunt-reference cathode voltage [V] when not given.
+DEFAULT_LED_VF_V = 1.2
+DEFAULT_SHUNT_VKA_V = 2.5
+
+
+@dataclass
+class Corner:
+    """What the part models need of one engine corner."""
+
+    id: str
+    load: str
+    vin: float
+    mode: str
+    fsw: float
+    t_amb: float
+    roles: dict[str, dict[str, float | None]]
+    waves: dict[str, PiecewiseLinear] | None = None  # None at voltage-only corners
+
+
+@dataclass
+class PartContext:
+    """Everything the part models need besides the parts themselves."""
+
+    design: Any
+    corners: list[Corner]
+    assumptions: set[str] = field(default_factory=set)
+    bank_splits: dict[str, dict] = field(default_factory=dict)  # role → worst-corner split, for the report
+    losses: dict[str, dict[str, float]] = field(default_factory=dict)  # corner → part → W
+
+    @property
+    def current_corners(self) -> list[Corner]:
+        return [c for c in self.corners if c.waves is not None]
+
+    def add_loss(self, corner: str, ref: str, watts: float | None) -> None:
+        if watts is not None and math.isfinite(watts):
+            self.losses.setdefault(corner, {})[ref] = watts
+
+
+def rating_column(category: str, parameter: str, policy: Any, part: Any) -> str | None:
+    """The catalog column a policy rule compares ``parameter`` with for ``part``."""
+    rule = policy.rule_for(category, parameter, getattr(part, "subtype", None), getattr(part, "dielectric", None)) \
+        if policy is not None else None
+    if rule is not None and rule.rating_name:
+        return rule.rating_name
+    return DEFAULT_RATINGS.get((category, parameter))
+
+
+class _Items:
+    """Collects stress items for one part."""
+
+    def __init__(self, refs: Sequence[str], part: Any, role: str, policy: Any) -> None:
+        self.refs, self.part, self.role, self.policy = tuple(refs), part, role, policy
+        self.items: list[StressItem] = []
+
+    def add(self, parameter: str, stress: float | None, corner: str, *, rating: float | None | str = "column",
+            temperature: float | None = None, detail: str = "", required: float | None = None) -> None:
+        p = self.part
+        if rating == "column":
+            column = rating_column(p.category, parameter, self.policy, p)
+            rating = getattr(p, column, None) if column else None
+        if stress is not None and not math.isfinite(stress):
+            stress = None
+        self.items.append(StressItem(
+            refs=self.refs, part_number=p.part_number, role=self.role, category=p.category, subtype=p.subtype,
+            dielectric=getattr(p, "dielectric", None), parameter=parameter,
+            stress=abs(stress) if stress is not None else None, rating=rating, corner=corner,
+            temperature=temperature, t_max=getattr(p, "tj_max", None) or getattr(p, "t_max", None), detail=detail,
+            t_knee=getattr(p, "t_knee", None), rating_min=getattr(p, "ika_min", None), required=required))
+
+
+def _r(corner: Corner, role: str, key: str) -> float | None:
+    value = corner.roles.get(role, {}).get(key)
+    return None if value is None or not math.isfinite(value) else float(value)
+
+
+# --------------------------------------------------------------------------------------------
+# Semiconductors
+# --------------------------------------------------------------------------------------------
+
+def switch_items(refs, part, role, ctx: PartContext, policy) -> list[StressItem]:
+    """Drain voltage, peak and RMS current, and junction temperature of the primary switch."""
+    out = _Items(refs, part, role, policy)
+    d = ctx.design
+    fb = d.feedback
+    ig = float(fb.get("gate_current", DEFAULT_GATE_CURRENT_A)) if isinstance(fb.get("gate_current", 0), (int, float)) \
+        else DEFAULT_GATE_CURRENT_A
+    vgs = float(fb.get("gate_voltage", DEFAULT_GATE_VOLTAGE_V)) if isinstance(fb.get("gate_voltage", 0), (int, float)) \
+        else DEFAULT_GATE_VOLTAGE_V
+    for c in ctx.corners:
+        out.add("voltage", _r(c, role, "v_peak"), c.id)
+        if c.waves is None:
+            continue
+        i_pk, i_rms = _r(c, role, "i_peak"), _r(c, role, "i_rms")
+        out.add("current_peak", i_pk, c.id)
+        out.add("current_rms", i_rms, c.id)
+        if part.rds_on is None or part.rth_ja is None:
+            missing = ", ".join(n for n in ("rds_on", "rth_ja") if getattr(part, n) is None)
+            out.add("temperature", None, c.id, detail=f"no {missing} in the catalog: junction temperature not computed")
+            continue
+        wave = c.waves["switch"]
+        i_valley = float(wave.y[0])
+        vr = _reflected(d)
+        notes = []
+        if part.qg is None:
+            notes.append("no gate charge in the catalog: switching overlap loss not modelled")
+        ctx.assumptions.add(f"switch gate drive {DEFAULT_GATE_CURRENT_A:g} A at {DEFAULT_GATE_VOLTAGE_V:g} V "
+                            "unless [feedback] gate_current / gate_voltage are given (common practice)")
+        th = semi.mosfet_losses(
+            i_rms, i_pk, i_valley, _r(c, role, "v_peak") or c.vin + vr, c.fsw, c.mode.lower(),
+            rds25=part.rds_on, rds125=part.rds_on_125, coss=part.coss or 0.0, qg=part.qg or 0.0,
+            gate_drive_current_a=ig, vgs=vgs, t_amb_c=c.t_amb, rth_ja=part.rth_ja,
+            valley_v=max(0.0, c.vin - vr) if c.mode == "BCM" else None, v_in=c.vin,
+            v_on=c.vin + vr if c.mode == "CCM" else None,  # turn-on against the reflected plateau, not the spike
+            tj_max_c=part.tj_max or 150.0)
+        ctx.add_loss(c.id, out.refs[0], th.p_total)
+        detail = "; ".join([*notes, *th.notes] + (["thermal runaway: no junction temperature fixed point"]
+                                                   if th.runaway else []))
+        out.add("temperature", th.tj, c.id,
+                detail=detail or f"P = {th.p_total:.3g} W (conduction {th.p_cond:.3g} W at Rds {th.rds_at_tj:.3g} Ω)")
+        out.add("power", th.p_total, c.id, rating=None)
+    return out.items
+
+
+def _reflected(design) -> float:
+    o = design.outputs[0]
+    return o.turns_ratio * (o.vout + o.vf)
+
+
+def diode_items(refs, part, role, ctx: PartContext, policy, *, engine_role: str | None = None) -> list[StressItem]:
+    """Reverse voltage, average/peak current and junction temperature of a rectifier or clamp diode."""
+    role_key = engine_role or role
+    out = _Items(refs, part, role, policy)
+    for c in ctx.corners:
+        out.add("voltage", _r(c, role_key, "v_reverse"), c.id)
+        if c.waves is None:
+            continue
+        i_avg, i_rms, i_pk = _r(c, role_key, "i_avg"), _r(c, role_key, "i_rms"), _r(c, role_key, "i_peak")
+        out.add("current_avg", i_avg, c.id)
+        out.add("current_peak", i_pk, c.id)
+        if part.vf is None or part.rth_ja is None or i_avg is None:
+            missing = ", ".join(n for n in ("vf", "rth_ja") if getattr(part, n) is None) or "current"
+            out.add("temperature", None, c.id, detail=f"no {missing} in the catalog: junction temperature not computed")
+            continue
+        th = semi.rectifier_loss(
+            i_avg, i_rms or i_avg, part.vf, part.vf_current, part.subtype or "standard", qrr=part.qrr, trr=part.trr,
+            v_reverse=_r(c, role_key, "v_reverse") or 0.0, fsw=c.fsw, mode=c.mode.lower(), t_amb_c=c.t_amb,
+            rth_ja=part.rth_ja)
+        ctx.add_loss(c.id, out.refs[0], th.p_total)
+        out.add("temperature", th.tj, c.id, detail=f"P = {th.p_total:.3g} W")
+        out.add("power", th.p_total, c.id, rating=None)
+    return out.items
+
+
+def clamp_items(refs, parts: dict[str, Any], role, ctx: PartContext, policy) -> list[StressItem]:
+    """The primary clamp: Zener/TVS power and temperature, blocking diode, RCD resistor and capacitor."""
+    items: list[StressItem] = []
+    absorbers = [r for r in refs if parts[r].category == "clamp"]
+    resistors = [r for r in refs if parts[r].category == "resistor"]
+    for ref in refs:
+        part = parts[ref]
+        if part.category == "diode":
+            items += diode_items([ref], part, role, ctx, policy, engine_role="clamp_diode")
+            continue
+        out = _Items([ref], part, role, policy)
+        for c in ctx.corners:
+            v = _r(c, "clamp", "v")
+            if part.category == "capacitor":
+                out.add("voltage", v, c.id)
+                continue
+            if part.category == "resistor":
+                out.add("voltage", v, c.id)
+            if c.waves is None:
+                continue
+            p_total = _r(c, "clamp", "p_loss")
+            if p_total is None:
+                continue
+            if part.category == "clamp":
+                # Series absorbers share the clamp voltage, hence the power, by breakdown voltage.
+                vb = [parts[r].v_breakdown or 1.0 for r in absorbers]
+                share = (part.v_breakdown or 1.0) / sum(vb)
+                p = p_total * share
+                out.add("power", p, c.id)
+                tj = semi.zener_temperature(p, c.t_amb, part.rth_ja) if part.rth_ja is not None else None
+                out.add("temperature", tj, c.id, detail="" if tj is not None else "no rth_ja in the catalog")
+            elif part.category == "resistor":
+                p = p_total / max(len(resistors), 1)
+                out.add("power", p, c.id, temperature=c.t_amb)
+            else:
+                continue
+            ctx.add_loss(c.id, ref, p)
+        items += out.items
+    return items
+
+
+# --------------------------------------------------------------------------------------------
+# Capacitor banks
+# --------------------------------------------------------------------------------------------
+
+def bank_items(refs, parts: dict[str, Any], role, ctx: PartContext, policy, *, requirement_h=None) -> list[StressItem]:
+    """Every capacitor of a parallel bank: voltage, ripple share, capacitance after bias, temperature, life."""
+    items: list[StressItem] = []
+    caps = [r for r in refs if parts[r].category == "capacitor"]
+    collectors = {r: _Items([r], parts[r], role, policy) for r in caps}
+    worst_ripple = -1.0
+    for c in ctx.corners:
+        v_dc = _r(c, role, "v_dc")
+        if v_dc is None:
+            continue
+        models, eff = [], {}
+        for r in caps:
+            p = parts[r]
+            c_eff, note, approx = caps_model.effective_capacitance(
+                p.capacitance or 0.0, v_dc, p.v_rated or math.inf, p.dielectric if p.subtype == "ceramic" else None,
+                p.curves.get("dc_bias") or None)
+            if approx and p.subtype == "ceramic":
+                ctx.assumptions.add(f"{r}: {note}")
+            eff[r] = c_eff
+            models.append(caps_model.CapacitorModel(r, max(c_eff, 1e-15), p.esr if p.esr is not None else 1e-3,
+                                                    p.esl or 0.0))
+        split = None
+        if c.waves is not None and models:
+            wave_key = "input_cap" if role == "input_cap" else role if role in c.waves else f"output_cap:{role.split(':')[1]}" \
+                if ":" in role else "output_cap"
+            wave = c.waves.get(wave_key)
+            if wave is not None:
+                split = caps_model.split_bank_current(wave, models)
+                total = float(split.i_bank_ac_rms)
+                if total > worst_ripple:
+                    worst_ripple = total
+                    ctx.bank_splits[role] = {
+                        "corner": c.id, "harmonics": split.n_harmonics, "captured": split.captured,
+                        "v_pp": split.v_pp,
+                        "caps": [{"ref": r, "part_number": parts[r].part_number, "i_rms": float(i),
+                                  "c_eff": eff[r], "esr": parts[r].esr} for r, i in zip(caps, split.i_rms)]}
+        for k, r in enumerate(caps):
+            p, out = parts[r], collectors[r]
+            v_pp = split.v_pp if split is not None else (_r(c, role, "v_ripple_pp") or 0.0)
+            out.add("voltage", v_dc + 0.5 * v_pp, c.id, detail=f"DC {v_dc:.4g} V + half the ripple")
+            if p.subtype == "ceramic":
+                out.add("capacitance", eff[r], c.id, rating=p.capacitance,
+                        detail=f"{p.dielectric or 'ceramic'} at {v_dc:.3g} V DC bias")
+            if split is None:
+                continue
+            i_rms = float(split.i_rms[k])
+            ctx.add_loss(c.id, r, i_rms * i_rms * (p.esr or 0.0))
+            if p.subtype == "ceramic":
+                out.add("temperature", c.t_amb, c.id, rating=p.t_max, detail="ambient; self-heating neglected")
+                if p.ripple_current is not None:
+                    out.add("ripple_current", i_rms, c.id, rating=p.ripple_current)
+                continue
+            rating = None
+            detail = ""
+            if p.ripple_current is not None:
+                rr = caps_model.ripple_rating(p.ripple_current, c.fsw, c.t_amb, p.curves.get("ripple_freq") or None,
+                                              p.curves.get("ripple_temp") or None,
+                                              f_rated=p.ripple_freq or 100e3, t_rated=p.ripple_temp or p.t_max or 105.0)
+                rating = rr.i_allowed
+                detail = f"rating ×{rr.freq_multiplier:.3g} (frequency) ×{rr.temp_multiplier:.3g} (temperature)"
+                for note in rr.notes:
+                    ctx.assumptions.add(f"{r}: {note}")
+            out.add("ripple_current", i_rms, c.id, rating=rating, detail=detail)
+            t_hot = caps_model.hot_spot_temperature(c.t_amb, i_rms, p.esr or 0.0, ripple_rise_k=p.ripple_rise,
+                                                    i_rated=p.ripple_current)
+            ctx.assumptions.add(f"{r}: hot spot by {caps_model.hot_spot_model(p.ripple_rise, p.ripple_current, None)}")
+            out.add("temperature", t_hot, c.id, rating=p.t_max, detail="hot spot (ambient + ripple self-heating)")
+            if p.subtype == "aluminium_electrolytic" and p.life_hours is not None:
+                t0 = p.life_temp or p.t_max
+                life = caps_model.electrolytic_life(p.life_hours, t0, t_hot) if t0 is not None else None
+                out.add("life", life, c.id, required=requirement_h,
+                        detail=f"10-degree rule from {p.life_hours:g} h at {t0:g} °C, hot spot {t_hot:.1f} °C")
+    for r in refs:
+        if r in collectors:
+            items += collectors[r].items
+    return items
+
+
+# --------------------------------------------------------------------------------------------
+# Resistors, magnetics and feedback parts
+# --------------------------------------------------------------------------------------------
+
+def sense_items(refs, part, role, ctx: PartContext, policy) -> list[StressItem]:
+    """Current-sense resistor: I_rms²·R of the switch current."""
+    out = _Items(refs, part, role, policy)
+    for c in ctx.current_corners:
+        i_rms = _r(c, "switch", "i_rms")
+        if part.resistance is None or i_rms is None:
+            out.add("power", None, c.id, detail="no resistance in the catalog")
+            continue
+        p = semi.sense_resistor_power(i_rms, part.resistance)
+        ctx.add_loss(c.id, out.refs[0], p)
+        out.add("power", p, c.id, temperature=c.t_amb)
+    return out.items
+
+
+def transformer_items(refs, part, role, ctx: PartContext, policy) -> list[StressItem]:
+    """Peak magnetizing current against the saturation current (current-limit corners included)."""
+    out = _Items(refs, part, role, policy)
+    for c in ctx.current_corners:
+        out.add("saturation", _r(c, "transformer", "i_peak"), c.id)
+    return out.items
+
+
+def divider_items(refs, parts: dict[str, Any], role, ctx: PartContext, policy) -> list[StressItem]:
+    """The output-sensing divider: voltage and power of each resistor across the sensed voltage."""
+    d = ctx.design
+    o = d.outputs[0]
+    if d.converter.control == "primary-side":
+        v_aux = d.feedback.get("v_aux")
+        if not isinstance(v_aux, (int, float)):
+            na_ns = d.feedback.get("aux_turns_ratio")  # Na/Ns
+            v_aux = (o.vout + o.vf) * float(na_ns) if isinstance(na_ns, (int, float)) else None
+        v_sense, what = v_aux, "auxiliary winding plateau"
+    else:
+        v_sense, what = o.vout, f"output {o.name}"
+    resistors = [r for r in refs if parts[r].category == "resistor" and parts[r].resistance]
+    total_r = sum(parts[r].resistance for r in resistors)
+    items: list[StressItem] = []
+    for r in refs:
+        out = _Items([r], parts[r], role, policy)
+        if v_sense is None or r not in resistors:
+            out.add("power", None, "vin_nom-full",
+                    detail="divider voltage unknown: give [feedback] v_aux or aux_turns_ratio" if v_sense is None
+                    else "not a resistor with a resistance")
+        else:
+            i = v_sense / total_r
+            res = parts[r].resistance
+            out.add("power", i * i * res, "vin_nom-full", temperature=d.environment.ambient_max,
+                    detail=f"across the {what}, {v_sense:.3g} V")
+            out.add("voltage", i * res, "vin_nom-full")
+        items += out.items
+    return items
+
+
+def feedback_items(refs, parts: dict[str, Any], role, ctx: PartContext, policy) -> list[StressItem]:
+    """Optocoupler LED current and shunt-reference cathode current/voltage from the loop's resistors."""
+    d = ctx.design
+    fb = d.feedback
+    o = d.outputs[0]
+    items: list[StressItem] = []
+    r_led = fb.get("r_led")
+    if not isinstance(r_led, (int, float)):
+        for r in refs:
+            out = _Items([r], parts[r], role, policy)
+            out.add("current_avg", None, "vin_nom-full", detail="give [feedback] r_led (and r_bias) to assess the loop")
+            items += out.items
+        return items
+    v_led = float(fb.get("v_led", DEFAULT_LED_VF_V)) if isinstance(fb.get("v_led", 0), (int, float)) else DEFAULT_LED_VF_V
+    v_ka = float(fb.get("v_ka", DEFAULT_SHUNT_VKA_V)) if isinstance(fb.get("v_ka", 0), (int, float)) else DEFAULT_SHUNT_VKA_V
+    r_bias = fb.get("r_bias") if isinstance(fb.get("r_bias"), (int, float)) else None
+    opto = next((parts[r] for r in parts if parts[r].category == "optocoupler"), None)
+    ctr = (opto.ctr_min if opto is not None and opto.ctr_min else 1.0)
+    life = d.requirements.get("life_hours", 0.0)
+    loop = fb_model.opto_loop(o.vout, float(r_led), v_led, v_ka, r_bias, ctr_min=ctr, life_h=life or 0.0,
+                              i_c_needed=fb.get("i_c_needed") if isinstance(fb.get("i_c_needed"), (int, float)) else None)
+    ctx.assumptions.add(f"optocoupler loop: LED Vf {v_led:g} V, shunt cathode {v_ka:g} V (defaults unless given in "
+                        "[feedback]); CTR degradation model is an assumption the user must confirm")
+    for r in refs:
+        p = parts[r]
+        out = _Items([r], p, role, policy)
+        if p.category == "optocoupler":
+            out.add("current_avg", loop.i_led, "vin_nom-full", detail="LED forward current")
+        elif p.category == "reference":
+            out.add("current_avg", loop.i_k, "vin_nom-full", detail="cathode current (LED + bias resistor)")
+            out.add("voltage", o.vout, "vin_nom-full", detail="cathode can rise to the output voltage")
+        items += out.items
+    return items
+
+
+def extra_items(extra, parts: dict[str, Any], ctx: PartContext, policy) -> list[StressItem]:
+    """User-given stresses (``[[extra_stress]]``) for parts outside the modelled power stage."""
+    items: list[StressItem] = []
+    for ref in extra.refs:
+        if ref not in parts:
+            continue
+        out = _Items([ref], parts[ref], "extra", policy)
+        for parameter, value in (("voltage", extra.voltage), ("current_rms", extra.current_rms),
+                                 ("current_peak", extra.current_peak), ("power", extra.power),
+                                 ("temperature", extra.temperature)):
+            if value is not None:
+                out.add(parameter, value, "user", temperature=ctx.design.environment.ambient_max,
+                        detail=extra.note or "given in [[extra_stress]]")
+        items += out.items
+    return items
+
+
+#: Role name (before any ":output") → builder.  Builders taking a parts dict handle groups.
+SINGLE: dict[str, Callable] = {"switch": switch_items, "rectifier": diode_items, "clamp_diode": diode_items,
+                               "current_sense": sense_items, "transformer": transformer_items}
+GROUP: dict[str, Callable] = {"clamp": clamp_items, "input_cap": bank_items, "output_cap": bank_items,
+                              "feedback_divider": divider_items, "optocoupler": feedback_items,
+                              "shunt_reference": feedback_items}
+
+
+def role_items(role: str, refs: Sequence[str], parts: dict[str, Any], ctx: PartContext, policy) -> list[StressItem]:
+    """Stress items of every part that fills ``role`` (``parts``: ref → catalog record)."""
+    base = role.split(":")[0]
+    engine_role = _engine_role(role, ctx)
+    if base in GROUP:
+        if base in ("input_cap", "output_cap"):
+            return bank_items(refs, parts, engine_role, ctx, policy,
+                              requirement_h=ctx.design.requirements.get("life_hours"))
+        return GROUP[base](refs, parts, role, ctx, policy)
+    if base in SINGLE:
+        items: list[StressItem] = []
+        for ref in refs:
+            fn = SINGLE[base]
+            if fn is diode_items:
+                items += diode_items([ref], parts[ref], engine_role, ctx, policy)
+            else:
+                items += fn([ref], parts[ref], engine_role, ctx, policy)
+        return items
+    return []
+
+
+def _engine_role(role: str, ctx: PartContext) -> str:
+    """The engine's name for a design role: ``rectifier`` ↔ ``rectifier:<name>`` for one output."""
+    names = set(ctx.corners[0].roles) if ctx.corners else set()
+    if role in names:
+        return role
+    base = role.split(":")[0]
+    if base in names:
+        return base
+    if ":" not in role and base in ("rectifier", "output_cap") and len(ctx.design.outputs) >= 1:
+        return f"{base}:{ctx.design.outputs[0].name}"
+    return role
+
+
+def modelled_roles() -> Iterable[str]:
+    return (*SINGLE, *GROUP)

@@ -1,0 +1,429 @@
+"""The check: design + BOM + catalog + policy → one :class:`~partcheck.result.CheckResult`.
+
+This is the one module that wires the catalog, the BOM matcher, the stress engine and the rules
+together.  Every step is a library call:
+
+1. load the design and the policy (the command line's, else the design file's, else the shipped
+   default ``industrial``, and the result says which);
+2. read the BOM and match each line to a catalog record (pins from the design and the command
+   line win);
+3. solve the engine's corners and turn role stresses into part stresses
+   (:mod:`partcheck.partstress`);
+4. compare every part × parameter with the policy at its worst corner; fitted parts without a
+   model and lines without a match become findings of their own, never silent passes;
+5. for each failing part, re-run its role's part stresses with each approved neighbour from the
+   catalog and keep up to three that pass everything.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import datetime as _dt
+import hashlib
+import math
+from pathlib import Path
+from typing import Any, Sequence
+
+import numpy as np
+
+from . import __version__, partstress
+from .bom.match import match_bom
+from .bom.read import Bom, read_bom
+from .design import Design, load_design
+from .errors import DesignError, InputError
+from .result import CheckResult
+from .rules.alternatives import rank_alternatives
+from .rules.evaluate import Finding, evaluate, not_assessed_finding, unmatched_finding, verdict
+from .rules.policy import DEFAULT_POLICY, Policy, effective_rules_table, load_policy
+from .rules.waivers import parse_waivers
+from .stress import flyback
+from .stress import semiconductors as semi
+
+#: Statuses a BOM line must have for its part to be checked.
+_USABLE = ("matched",)
+#: Finding statuses the result keeps (the rules also report stresses no rule limits: "unlimited").
+_REPORTED = ("pass", "warn", "fail", "waived", "not_assessed", "unmatched")
+
+
+def _sha256(path: Path | None) -> str | None:
+    if path is None or not path.is_file():
+        return None
+    return hashlib.sha256(path.read_bytes()).hexdigest()
+
+
+def resolve_policy(spec: str | None, design: Design) -> tuple[Policy, str, Path | None]:
+    """The policy in force and where its name came from: ``option``, ``design`` or ``default``."""
+    if spec:
+        origin, name = "option", spec
+    elif design.policy:
+        origin, name = "design", design.policy
+        base = design.path.parent if design.path is not None else Path(".")
+        candidate = base / design.policy
+        if candidate.suffix == ".toml" or candidate.exists():
+            name = str(candidate)
+    else:
+        origin, name = "default", DEFAULT_POLICY
+    policy = load_policy(name)
+    path = Path(name) if Path(name).suffix == ".toml" and Path(name).exists() else None
+    return policy, origin, path
+
+
+def _with_catalog_vf(design: Design, rectifier_parts: dict[str, Any]) -> tuple[Design, list[str]]:
+    """Take each output's rectifier drop from its catalog record when the design gives none."""
+    notes = []
+    outputs = []
+    for out in design.outputs:
+        part = rectifier_parts.get(out.name)
+        if not out.vf_given and part is not None and getattr(part, "vf", None):
+            outputs.append(dataclasses.replace(out, vf=part.vf, vf_given=True))
+            notes.append(f"output {out.name}: rectifier drop {part.vf:g} V taken from {part.part_number}")
+        else:
+            outputs.append(out)
+    return dataclasses.replace(design, outputs=tuple(outputs)), notes
+
+
+def _corners(design: Design) -> tuple[flyback.StressResult, list[partstress.Corner]]:
+    result = flyback.evaluate(design)
+    corners = []
+    for c in result.corners:
+        waves = None if c.load == "surge" else flyback.corner_waveforms(design, c.id)
+        corners.append(partstress.Corner(c.id, c.load, c.vin, c.mode, c.fsw, c.t_amb, c.roles, waves))
+    return result, corners
+
+
+@dataclasses.dataclass
+class _Assignment:
+    """Which BOM references fill which role, and the catalog record of each reference."""
+
+    roles: dict[str, tuple[str, ...]]
+    records: dict[str, Any]  # ref → PartRecord (matched lines only)
+    line_of: dict[str, Any]  # ref → LineMatch
+    findings: list[Finding]  # references that cannot be assessed
+
+
+def _assign(design: Design, matches, records_by_pn: dict[str, Any]) -> _Assignment:
+    line_of = {ref: m for m in matches for ref in m.refs}
+    records = {ref: records_by_pn[m.part_number] for ref, m in line_of.items()
+               if m.status in _USABLE and m.part_number in records_by_pn}
+    findings: list[Finding] = []
+    roles: dict[str, tuple[str, ...]] = {}
+    for role, refs in design.roles.items():
+        usable = []
+        for ref in refs:
+            m = line_of.get(ref)
+            if m is None:
+                findings.append(unmatched_finding([ref], role=role, reason=f"{ref} is named in [roles] but is not on the BOM"))
+            elif m.status == "not_fitted":
+                continue
+            elif ref not in records:
+                continue  # reported once per BOM line below
+            else:
+                usable.append(ref)
+        if usable:
+            roles[role] = tuple(usable)
+    return _Assignment(roles, records, line_of, findings)
+
+
+def _line_findings(matches, assigned_refs: set[str], extra_refs: set[str]) -> list[Finding]:
+    """Unmatched lines, and fitted matched parts that neither a role nor [[extra_stress]] covers."""
+    findings = []
+    for m in matches:
+        if m.status == "not_fitted":
+            continue
+        if m.status not in _USABLE:
+            reason = f"BOM line {m.line} is {m.status}: {m.reason}"
+            findings.append(unmatched_finding(m.refs, part_number=m.part_number or "", reason=reason,
+                                              category=m.category or ""))
+            continue
+        left = [r for r in m.refs if r not in assigned_refs and r not in extra_refs]
+        if left:
+            findings.append(not_assessed_finding(
+                left, m.part_number or "", "", "no stress model covers this part and no [[extra_stress]] gives one: "
+                "map it in [roles] or describe its stress in [[extra_stress]]", category=m.category or ""))
+    return findings
+
+
+def _part_items(design, assignment, ctx, policy, *, override: tuple[str, Any] | None = None):
+    items = []
+    for role, refs in assignment.roles.items():
+        parts = dict(assignment.records)
+        if override is not None:
+            if override[0] not in refs:
+                continue
+            parts[override[0]] = override[1]
+        items += partstress.role_items(role, refs, parts, ctx, policy)
+    for extra in design.extra_stress:
+        if override is None:
+            items += partstress.extra_items(extra, assignment.records, ctx, policy)
+    return items
+
+
+def check(design_path: str | Path | Design, *, bom: str | Path | None = None, policy: str | None = None,
+          catalog: Any = None, db: str | None = None, pins: dict[str, str] | None = None,
+          today: _dt.date | None = None, command: str | None = None) -> CheckResult:
+    """Run the whole check and return its result.
+
+    Parameters
+    ----------
+    design_path: the design file (or a loaded :class:`Design`).
+    bom: the BOM file; default the design file's ``bom``.
+    policy: a preset name or a policy file; default the design file's ``policy``, else the
+        shipped ``industrial`` preset.
+    catalog: an open catalog; else ``db`` (URL or path) is opened.
+    pins: reference → part number, winning over the design's ``[pins]`` and the matcher.
+    today: the date waivers are judged against (default: today).
+    command: the command line, for the traceability section.
+    """
+    from .catalog.store import open_catalog
+
+    design = design_path if isinstance(design_path, Design) else load_design(design_path)
+    today = today or _dt.date.today()
+    pol, origin, policy_path = resolve_policy(policy, design)
+    waivers = parse_waivers(list(design.waivers), file=design.file)
+
+    bom_path = Path(bom) if bom is not None else design.bom
+    if bom_path is None:
+        raise DesignError("no BOM to check: give --bom or `bom = \"...\"` in the design file", file=design.file, key="bom")
+    bom_data: Bom = read_bom(bom_path)
+
+    own_catalog = catalog is None
+    cat = open_catalog(db, create=False) if own_catalog else catalog
+    try:
+        records = cat.parts()
+        records_by_pn = {p.part_number: p for p in records}
+        all_pins = {**design.pins, **(pins or {})}
+        matches = match_bom(bom_data, records, all_pins)
+        assignment = _assign(design, matches, records_by_pn)
+
+        rect_parts = {}
+        for role, refs in assignment.roles.items():
+            if role.split(":")[0] == "rectifier" and refs:
+                name = role.split(":")[1] if ":" in role else design.outputs[0].name
+                rect_parts[name] = assignment.records[refs[0]]
+        design, vf_notes = _with_catalog_vf(design, rect_parts)
+        stress_result, corners = _corners(design)
+        ctx = partstress.PartContext(design, corners)
+        items = _part_items(design, assignment, ctx, pol)
+
+        findings = evaluate(items, pol, waivers=waivers, today=today)
+        assigned = {r for refs in assignment.roles.values() for r in refs}
+        extra_refs = {r for e in design.extra_stress for r in e.refs}
+        findings += assignment.findings + _line_findings(matches, assigned, extra_refs)
+        findings = [f for f in findings if f.status in _REPORTED]
+
+        _suggest_alternatives(findings, design, assignment, ctx, pol, cat, waivers, today)
+        catalog_hash = cat.snapshot_hash()
+        catalog_name = str(getattr(cat, "url", db or ""))
+    finally:
+        if own_catalog:
+            cat.close()
+
+    notes = list(stress_result.notes) + vf_notes + _efficiency_notes(design, ctx)
+    result = CheckResult(
+        design=design.name, policy=pol.name, policy_origin=origin, verdict=verdict(findings, pol),
+        findings=[_finding_dict(f) for f in findings],
+        parts=_parts_table(findings, matches, assignment, records_by_pn),
+        bom_lines=[m.to_dict() for m in matches],
+        corners=[c.to_dict() for c in stress_result.corners],
+        part_stresses=_part_stresses(items),
+        waveforms=_waveforms(design, stress_result),
+        sweep=_sweep(design, findings, assignment),
+        bank_split=ctx.bank_splits,
+        policy_rules=effective_rules_table(pol),
+        waivers=[_waiver_dict(w) for w in waivers],
+        assumptions=sorted(ctx.assumptions),
+        notes=notes,
+        trace={"tool_version": __version__, "date": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
+               "command": command or "", "design_path": design.file, "design_sha256": _sha256(design.path),
+               "bom_path": str(bom_path), "bom_sha256": _sha256(Path(bom_path)), "policy": pol.name,
+               "policy_origin": origin, "policy_sha256": _sha256(policy_path), "catalog": catalog_name,
+               "catalog_sha256": catalog_hash, "waiver_date": today.isoformat()},
+    )
+    return result
+
+
+# --------------------------------------------------------------------------------------------
+# Alternatives
+# --------------------------------------------------------------------------------------------
+
+def _suggest_alternatives(findings, design, assignment, ctx, policy, cat, waivers, today) -> None:
+    failing: dict[str, list[Finding]] = {}
+    for f in findings:
+        if f.status == "fail" and len(f.refs) == 1 and f.refs[0] in assignment.records:
+            failing.setdefault(f.refs[0], []).append(f)
+    for ref, fails in failing.items():
+        part = assignment.records[ref]
+        candidates = [p for p in cat.parts(part.category, part.subtype) if p.part_number != part.part_number]
+
+        def evaluate_candidate(candidate, ref=ref):
+            quiet = partstress.PartContext(design, ctx.corners)
+            items = [i for i in _part_items(design, assignment, quiet, policy, override=(ref, candidate))
+                     if ref in i.refs]
+            return [f for f in evaluate(items, policy, waivers=(), today=today) if f.status != "unlimited"]
+
+        alternatives = rank_alternatives(part, candidates, evaluate_candidate)
+        rows = [{"part_number": a.part_number, "description": a.description, "min_margin": a.min_margin,
+                 "worst_parameter": a.worst_parameter, "package": a.package, "same_package": a.same_package}
+                for a in alternatives]
+        for f in fails:
+            f.alternatives = rows
+
+
+# --------------------------------------------------------------------------------------------
+# Result sections
+# --------------------------------------------------------------------------------------------
+
+def _clean(value: Any) -> Any:
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
+    if isinstance(value, (np.floating,)):
+        return _clean(float(value))
+    if isinstance(value, (np.integer,)):
+        return int(value)
+    if isinstance(value, dict):
+        return {k: _clean(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_clean(v) for v in value]
+    return value
+
+
+def _finding_dict(f: Finding) -> dict:
+    data = f.to_dict()
+    data["alternatives"] = list(f.alternatives)
+    return _clean(data)
+
+
+def _waiver_dict(w) -> dict:
+    return {"ref": w.ref, "parameter": w.parameter, "reason": w.reason, "approved_by": w.approved_by,
+            "date": w.date.isoformat(), "expires": w.expires.isoformat() if w.expires else None}
+
+
+_RANK = {"fail": 5, "unmatched": 4, "not_assessed": 3, "warn": 2, "waived": 1, "pass": 0}
+
+
+def _parts_table(findings, matches, assignment, records_by_pn) -> list[dict]:
+    """One row per fitted BOM line: its worst status and utilisation."""
+    rows = []
+    role_of = {ref: role for role, refs in assignment.roles.items() for ref in refs}
+    for m in matches:
+        mine = [f for f in findings if set(f.refs) & set(m.refs)]
+        status = "not_fitted" if m.status == "not_fitted" else max(
+            (f.status for f in mine), key=lambda s: _RANK.get(s, 0), default="pass")
+        utils = [(f.utilization, f.parameter) for f in mine if f.utilization is not None]
+        worst = max(utils, default=(None, None))
+        record = records_by_pn.get(m.part_number) if m.part_number else None
+        rows.append(_clean({
+            "refs": list(m.refs), "part_number": m.part_number, "bom_line": m.line,
+            "description": getattr(record, "description", None) or m.text,
+            "role": ", ".join(sorted({role_of[r] for r in m.refs if r in role_of})),
+            "category": m.category, "status": status, "worst_utilization": worst[0], "worst_parameter": worst[1],
+            "match": {"status": m.status, "method": m.method, "score": round(float(m.score), 1), "reason": m.reason}}))
+    return rows
+
+
+def _part_stresses(items) -> list[dict]:
+    """Per part: each parameter's largest stress and the corner it occurs at."""
+    parts: dict[tuple, dict] = {}
+    for it in items:
+        key = (tuple(it.refs), it.part_number, it.role)
+        row = parts.setdefault(key, {"refs": list(it.refs), "part_number": it.part_number, "role": it.role,
+                                     "stresses": {}, "worst_corner": {}})
+        if it.stress is None:
+            continue
+        best = row["stresses"].get(it.parameter)
+        worse = best is None or (it.stress < best if it.parameter in ("capacitance", "life") else it.stress > best)
+        if worse:
+            row["stresses"][it.parameter] = it.stress
+            row["worst_corner"][it.parameter] = it.corner
+    return [_clean(r) for r in parts.values()]
+
+
+def _waveforms(design, stress_result) -> dict:
+    """Switch and rectifier currents at the corner with the largest switch peak current."""
+    current = [c for c in stress_result.corners if c.load != "surge"]
+    if not current:
+        return {}
+    worst = max(current, key=lambda c: c.roles["switch"]["i_peak"] or 0.0)
+    waves = flyback.corner_waveforms(design, worst.id)
+    out = {}
+    keys = ["switch"] + [f"rectifier:{o.name}" for o in design.outputs]
+    for key in keys:
+        w = waves[key]
+        out[key] = {"corner": worst.id, "t": [float(t) for t in w.t], "y": [float(y) for y in w.y],
+                    "label": f"{key} current at {worst.id}", "unit": "A"}
+    return out
+
+
+def _sweep(design, findings, assignment) -> dict:
+    """Key stresses against input voltage over the input range, with the limits of the mapped parts."""
+    vin = np.linspace(design.input.vin_min, design.input.vin_max, 25)
+    try:
+        data = flyback.sweep(design, vin)
+    except InputError:
+        return {}
+    limit_of = {}
+    for f in findings:
+        if f.limit is not None and f.parameter in ("voltage", "current_peak"):
+            for ref in f.refs:
+                limit_of[(ref, f.parameter)] = min(f.limit, limit_of.get((ref, f.parameter), math.inf))
+    series = []
+    wanted = [("switch.v_peak", "switch drain voltage", "V", "switch", "voltage"),
+              ("switch.i_peak", "switch peak current", "A", "switch", "current_peak")]
+    for j, o in enumerate(design.outputs):
+        role = flyback.output_role("rectifier", design, j)
+        wanted.append((f"{role}.v_reverse", f"rectifier {o.name} reverse voltage", "V", role, "voltage"))
+    for key, label, unit, role, parameter in wanted:
+        if key not in data:
+            continue
+        refs = assignment.roles.get(role) or assignment.roles.get(role.split(":")[0]) or ()
+        limit = min((limit_of.get((r, parameter), math.inf) for r in refs), default=math.inf)
+        series.append({"key": key, "label": label, "unit": unit, "values": [float(v) for v in data[key]],
+                       "limit": limit if math.isfinite(limit) else None,
+                       "limit_label": f"policy limit of {', '.join(refs)}" if math.isfinite(limit) else None})
+    return _clean({"vin": [float(v) for v in vin], "series": series, "mode": [str(m) for m in data["mode"]]})
+
+
+def _efficiency_notes(design, ctx) -> list[str]:
+    losses = ctx.losses.get("vin_nom-full")
+    if not losses:
+        return []
+    p_out = sum(o.vout * o.iout for o in design.outputs)
+    check = semi.compare_efficiency(p_out, losses, design.converter.efficiency)
+    text = (f"estimated efficiency from the modelled losses at vin_nom-full: {check.eta_estimated:.1%} "
+            f"(design file: {design.converter.efficiency:.1%}; {len(losses)} parts' losses counted)")
+    if check.warn:
+        text += " — the two differ by more than 3 points: revise [converter] efficiency"
+    return [text]
+
+
+def affected(findings: Sequence[dict]) -> list[dict]:
+    """Findings that need a reviewer's attention, worst first."""
+    return sorted((f for f in findings if f["status"] != "pass"), key=lambda f: -_RANK.get(f["status"], 0))
+
+
+def write_annotated_bom(result: CheckResult, path: str | Path) -> Path:
+    """The BOM as read, with columns for matched part, worst utilisation, status and alternative.
+
+    Written as CSV or XLSX by the extension of ``path``; cells a spreadsheet would execute are
+    neutralised (:mod:`partcheck.bom.export`).
+    """
+    from .bom.export import write_annotated_bom as _write
+
+    bom = read_bom(result.trace["bom_path"])
+    by_line = {row["bom_line"]: row for row in result.parts}
+    alternative_of: dict[str, str] = {}
+    for f in result.findings:
+        if f["status"] == "fail" and f.get("alternatives"):
+            for ref in f["refs"]:
+                alternative_of.setdefault(ref, f["alternatives"][0]["part_number"])
+    columns: dict[str, list] = {"partcheck_part": [], "partcheck_utilization": [], "partcheck_status": [],
+                                "partcheck_alternative": []}
+    for line in bom.lines:
+        row = by_line.get(line.line, {})
+        util = row.get("worst_utilization")
+        columns["partcheck_part"].append(row.get("part_number") or "")
+        columns["partcheck_utilization"].append(f"{util:.1%}" if util is not None else "")
+        columns["partcheck_status"].append(row.get("status", ""))
+        columns["partcheck_alternative"].append(
+            next((alternative_of[r] for r in line.refs if r in alternative_of), ""))
+    return _write(bom, columns, path)
