@@ -36,7 +36,25 @@ from .policy import (
 from .waivers import Waiver, parse_waivers
 
 __all__ = [
-    "Alternative", "DEFAULT_POLICY", "Finding", "PARAMETERS", "Policy", "Rule", "STATUSES", "StressItem", "Waiver",
-    "evaluate", "list_presets", "load_policy", "load_policy_file", "load_preset", "loads_policy",
-    "not_assessed_finding", "parse_waivers", "rank_alternatives", "unmatched_finding", "unused_waivers", "verdict",
+    "DEFAULT_POLICY",
+    "PARAMETERS",
+    "STATUSES",
+    "Alternative",
+    "Finding",
+    "Policy",
+    "Rule",
+    "StressItem",
+    "Waiver",
+    "evaluate",
+    "list_presets",
+    "load_policy",
+    "load_policy_file",
+    "load_preset",
+    "loads_policy",
+    "not_assessed_finding",
+    "parse_waivers",
+    "rank_alternatives",
+    "unmatched_finding",
+    "unused_waivers",
+    "verdict",
 ]

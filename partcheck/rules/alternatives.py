@@ -13,8 +13,9 @@ attribute names works (``part_number``, ``category``, ``subtype``, ``status``, `
 
 from __future__ import annotations
 
+from collections.abc import Callable, Iterable
 from dataclasses import dataclass, field
-from typing import Any, Callable, Final, Iterable
+from typing import Any, Final
 
 from .evaluate import Finding
 
@@ -144,5 +145,14 @@ def rank_alternatives(failing_part: Any, candidates: Iterable[Any],
     return chosen[:limit]
 
 
-__all__ = ["Alternative", "DEFAULT_TOLERANCE", "HIGHER_RATINGS", "VALUE_COLUMNS", "candidates_for",
-           "compatible_value", "is_approved", "rank_alternatives", "ratings_not_lower"]
+__all__ = [
+    "DEFAULT_TOLERANCE",
+    "HIGHER_RATINGS",
+    "VALUE_COLUMNS",
+    "Alternative",
+    "candidates_for",
+    "compatible_value",
+    "is_approved",
+    "rank_alternatives",
+    "ratings_not_lower",
+]

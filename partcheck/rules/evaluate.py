@@ -29,8 +29,9 @@ from __future__ import annotations
 
 import datetime as _dt
 import math
+from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field, replace
-from typing import Any, Iterable, Sequence
+from typing import Any
 
 from ..units import format_quantity
 from .policy import LARGER_IS_BETTER, PARAMETERS, Policy, Rule
@@ -136,9 +137,7 @@ def evaluate(items: Iterable[StressItem], policy: Policy, *, waivers: Sequence[W
             continue
         key = (tuple(item.refs), item.part_number, item.role, item.parameter)
         current = groups.get(key)
-        if current is None:
-            groups[key] = finding
-        elif _worse(finding, current):
+        if current is None or _worse(finding, current):
             groups[key] = finding
     findings = order if not worst_only else list(groups.values())
     return [apply_waivers(f, waivers, today=today) for f in findings]
@@ -376,5 +375,17 @@ def _join(*texts: str) -> str:
     return "; ".join(t for t in texts if t)
 
 
-__all__ = ["Finding", "STATUSES", "StressItem", "apply_waivers", "assess", "derating_factor", "evaluate",
-           "limit_for", "not_assessed_finding", "unmatched_finding", "unused_waivers", "verdict"]
+__all__ = [
+    "STATUSES",
+    "Finding",
+    "StressItem",
+    "apply_waivers",
+    "assess",
+    "derating_factor",
+    "evaluate",
+    "limit_for",
+    "not_assessed_finding",
+    "unmatched_finding",
+    "unused_waivers",
+    "verdict",
+]

@@ -25,10 +25,11 @@ from __future__ import annotations
 import difflib
 import re
 import tomllib
+from collections.abc import Iterable
 from dataclasses import dataclass, field
 from importlib import resources
 from pathlib import Path
-from typing import Any, Final, Iterable
+from typing import Any, Final
 
 from ..errors import NotFoundError, PolicyError, QuantityError
 from ..units import format_quantity, parse_quantity
@@ -388,7 +389,7 @@ def _load(text: str, *, file: str, base_dir: Path, chain: tuple[str, ...]) -> Po
                   chain=parent.chain if parent else chain)
 
 
-def _load_parent(spec: Any, src: "_Source", base_dir: Path, chain: tuple[str, ...]) -> Policy:
+def _load_parent(spec: Any, src: _Source, base_dir: Path, chain: tuple[str, ...]) -> Policy:
     if not isinstance(spec, str) or not spec.strip():
         raise src.error("'extends' must be a preset name or a path to a policy file, as a string", "extends")
     if _looks_like_path(spec) or (base_dir / spec).is_file():
@@ -415,7 +416,7 @@ def _short(ident: str) -> str:
     return ident if ident.startswith("preset ") else Path(ident).name
 
 
-def _build_rule(rule_id: str, table: Any, inherited: Rule | None, src: "_Source") -> Rule | None:
+def _build_rule(rule_id: str, table: Any, inherited: Rule | None, src: _Source) -> Rule | None:
     where = f"rules.{rule_id}"
     if not isinstance(table, dict):
         raise src.error(f"rule {rule_id!r} must be a table: [rules.{rule_id}]", where)
@@ -519,7 +520,7 @@ def _build_rule(rule_id: str, table: Any, inherited: Rule | None, src: "_Source"
     return Rule(id=rule_id, origin=src.label, **values)
 
 
-def _check_unique_selectors(rules: list[Rule], local_ids: set[str], src: "_Source") -> None:
+def _check_unique_selectors(rules: list[Rule], local_ids: set[str], src: _Source) -> None:
     seen: dict[tuple, Rule] = {}
     for rule in rules:
         sel = (rule.category, rule.subtype, rule.dielectric, rule.parameter)
@@ -537,7 +538,7 @@ def _check_unique_selectors(rules: list[Rule], local_ids: set[str], src: "_Sourc
 # --------------------------------------------------------------------------------------------
 
 
-def _selector_value(key: str, table: dict, values: dict, src: "_Source", where: str) -> str:
+def _selector_value(key: str, table: dict, values: dict, src: _Source, where: str) -> str:
     value = table[key]
     dotted = f"{where}.{key}"
     if not isinstance(value, str) or not value.strip():
@@ -565,7 +566,7 @@ def _selector_value(key: str, table: dict, values: dict, src: "_Source", where: 
     return value
 
 
-def _fraction(table: dict, key: str, src: "_Source", where: str) -> float | None:
+def _fraction(table: dict, key: str, src: _Source, where: str) -> float | None:
     if key not in table:
         return None
     raw = table[key]
@@ -575,14 +576,14 @@ def _fraction(table: dict, key: str, src: "_Source", where: str) -> float | None
     return value
 
 
-def _warn_value(raw: Any, src: "_Source", dotted: str) -> float:
+def _warn_value(raw: Any, src: _Source, dotted: str) -> float:
     value = _number(raw, src, dotted, "a fraction of the limit such as 0.9")
     if not 0.0 < value < 1.0:
         raise src.error(f"warn must be > 0 and < 1 (a fraction of the limit), got {raw!r}", dotted)
     return value
 
 
-def _number(raw: Any, src: "_Source", dotted: str, expected: str) -> float:
+def _number(raw: Any, src: _Source, dotted: str, expected: str) -> float:
     if isinstance(raw, bool):
         raise src.error(f"expected {expected}, got {raw!r}", dotted)
     if isinstance(raw, (int, float)):
@@ -595,7 +596,7 @@ def _number(raw: Any, src: "_Source", dotted: str, expected: str) -> float:
     raise src.error(f"expected {expected}, got {raw!r}", dotted)
 
 
-def _quantity(table: dict, key: str, kind: str, src: "_Source", where: str) -> float | None:
+def _quantity(table: dict, key: str, kind: str, src: _Source, where: str) -> float | None:
     if key not in table:
         return None
     raw = table[key]
@@ -610,7 +611,7 @@ def _quantity(table: dict, key: str, kind: str, src: "_Source", where: str) -> f
         raise src.error(f"{exc.message}; {key} expects such as {example}", dotted) from None
 
 
-def _string(table: dict, key: str, src: "_Source", default: Any, dotted: str | None = None) -> Any:
+def _string(table: dict, key: str, src: _Source, default: Any, dotted: str | None = None) -> Any:
     if key not in table:
         return default
     value = table[key]
@@ -619,7 +620,7 @@ def _string(table: dict, key: str, src: "_Source", default: Any, dotted: str | N
     return value
 
 
-def _bool(table: dict, key: str, src: "_Source", default: bool, dotted: str | None = None) -> bool:
+def _bool(table: dict, key: str, src: _Source, default: bool, dotted: str | None = None) -> bool:
     if key not in table:
         return default
     value = table[key]

@@ -20,8 +20,9 @@ from __future__ import annotations
 
 import datetime as _dt
 import difflib
+from collections.abc import Iterable
 from dataclasses import dataclass
-from typing import Any, Final, Iterable
+from typing import Any, Final
 
 from ..errors import PolicyError
 from .policy import PARAMETERS

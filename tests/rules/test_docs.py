@@ -11,7 +11,7 @@ DOC = Path(__file__).resolve().parents[2] / "docs" / "policy-format.md"
 
 
 def test_example_is_a_valid_policy():
-    blocks = re.findall(r"```toml\n(.*?)```", DOC.read_text(encoding="utf-8"), re.S)
+    blocks = re.findall(r"```toml\n(.*?)```", DOC.read_text(encoding="utf-8"), re.DOTALL)
     example = blocks[1]  # the first block is the commented grammar
     policy = loads_policy(example, file="example.toml")
     assert policy.rule("electrolytic-life").min == 60000.0
@@ -21,13 +21,13 @@ def test_example_is_a_valid_policy():
 
 
 def test_grammar_block_is_all_comments():
-    grammar = re.findall(r"```toml\n(.*?)```", DOC.read_text(encoding="utf-8"), re.S)[0]
+    grammar = re.findall(r"```toml\n(.*?)```", DOC.read_text(encoding="utf-8"), re.DOTALL)[0]
     assert all(line.startswith("#") for line in grammar.strip().splitlines())
 
 
 def test_preset_table_lists_every_preset_with_its_rule_count():
     text = DOC.read_text(encoding="utf-8")
     for name in list_presets():
-        m = re.search(rf"^\| `{re.escape(name)}`[^|]*\| (\d+) \|", text, re.M)
+        m = re.search(rf"^\| `{re.escape(name)}`[^|]*\| (\d+) \|", text, re.MULTILINE)
         assert m, name
         assert int(m.group(1)) == len(load_preset(name).rules), name

@@ -208,7 +208,7 @@ def test_fraction_out_of_range(write):
 @pytest.mark.parametrize("value", ["0", "-0.1"])
 def test_fraction_zero_or_negative(write, value):
     path = write("p.toml", RULE.format(id="sw", category="switch", parameter="voltage", limit=f"fraction = {value}"))
-    assert f"line 4, key 'rules.sw.fraction': fraction must be > 0 and ≤ 1" in _error(path)
+    assert "line 4, key 'rules.sw.fraction': fraction must be > 0 and ≤ 1" in _error(path)
 
 
 def test_fraction_as_percent_text(write):

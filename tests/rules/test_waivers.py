@@ -109,17 +109,17 @@ GOOD = {"ref": "D1", "parameter": "voltage", "reason": "r", "approved_by": "a", 
 @pytest.mark.parametrize(
     "change, message",
     [
-        ({"parameter": "volts"}, "design.toml, key 'waiver[0].parameter': unknown parameter 'volts' (did you mean "
+        ({"parameter": "volts"}, ("design.toml, key 'waiver[0].parameter': unknown parameter 'volts' (did you mean "
          "'voltage'?); expected one of voltage, current_rms, current_peak, current_avg, power, temperature, "
-         "ripple_current, capacitance, life, saturation"),
-        ({"approved": "x"}, "design.toml, key 'waiver[0].approved': unknown waiver key 'approved' (did you mean "
-         "'approved_by'?); expected ref, parameter, reason, approved_by, date, expires"),
-        ({"reason": None}, "design.toml, key 'waiver[0].reason': a waiver needs 'reason' (ref, parameter, reason, "
-         "approved_by, date are required; expires is optional)"),
-        ({"date": "1 March 2026"}, "design.toml, key 'waiver[0].date': '1 March 2026' is not an ISO date; expected "
-         "YYYY-MM-DD such as 2026-03-02"),
-        ({"expires": "2025-12-31"}, "design.toml, key 'waiver[0].expires': expires 2025-12-31 is before the "
-         "approval date 2026-01-01"),
+         "ripple_current, capacitance, life, saturation")),
+        ({"approved": "x"}, ("design.toml, key 'waiver[0].approved': unknown waiver key 'approved' (did you mean "
+         "'approved_by'?); expected ref, parameter, reason, approved_by, date, expires")),
+        ({"reason": None}, ("design.toml, key 'waiver[0].reason': a waiver needs 'reason' (ref, parameter, reason, "
+         "approved_by, date are required; expires is optional)")),
+        ({"date": "1 March 2026"}, ("design.toml, key 'waiver[0].date': '1 March 2026' is not an ISO date; expected "
+         "YYYY-MM-DD such as 2026-03-02")),
+        ({"expires": "2025-12-31"}, ("design.toml, key 'waiver[0].expires': expires 2025-12-31 is before the "
+         "approval date 2026-01-01")),
         ({"ref": 5}, "design.toml, key 'waiver[0].ref': 'ref' must be a non-empty string, got 5"),
     ],
 )
