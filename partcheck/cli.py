@@ -389,32 +389,63 @@ def match_command(
 def stress_command(
     design: Annotated[str, typer.Argument(help="The design file (TOML).", show_default=False)],
     format: Annotated[str, typer.Option("--format", help="table or json.")] = "table",
+    bom: Annotated[Optional[str], typer.Option("--bom", help="Also compute each BOM part's stresses.")] = None,
+    db: Annotated[Optional[str], typer.Option("--db", envvar="PARTCHECK_DB", help="Catalog path or URL.")] = None,
+    samples: Annotated[Optional[int], typer.Option("--samples", min=1, help="Monte Carlo samples over [tolerances].")] = None,
+    seed: Annotated[int, typer.Option("--seed", help="Seed of the Monte Carlo draw (reproducible).")] = 0,
 ) -> None:
     """Compute what each power-stage role sees at every corner of DESIGN.
 
     The table shows, per role, each stress at its worst corner; --format json prints every corner
-    with its role stresses in SI units (°C for temperatures).
+    with its role stresses in SI units (°C for temperatures).  With --bom, each part's stresses
+    (capacitor-bank sharing, DC bias, losses and temperatures) are added; with a [tolerances]
+    table, the worst case by the extremes and, with --samples N, a seeded Monte Carlo run.
     """
     import json as _json
 
     from rich.table import Table
 
-    from .stress.flyback import evaluate
+    from .pipeline import stress_report
+    from .stress.flyback import STRESS_KINDS
     from .units import format_quantity
 
     if format not in ("table", "json"):
         raise typer.BadParameter(f"{format!r} is not a format; expected table or json", param_hint="--format")
-    result = evaluate(design)
+    data = stress_report(design, bom=bom, db=db, samples=samples, seed=seed)
     if format == "json":
-        out.print(_json.dumps(result.to_dict(), indent=2), markup=False, highlight=False)
+        out.print(_json.dumps(data, indent=2, allow_nan=False), markup=False, highlight=False)
         return
-    modes = ", ".join(f"{c.id} {c.mode} D={c.duty:.3f} f={format_quantity(c.fsw, 'Hz')}" for c in result.corners)
-    out.print(f"{result.design_name}: {modes}", markup=False)
+    corners = data["corners"]
+    modes = ", ".join(f"{c['id']} {c['mode']} D={c['duty']:.3f} f={format_quantity(c['fsw'], 'Hz')}" for c in corners)
+    out.print(f"{data['design']}: {modes}", markup=False)
+    worst: dict[tuple[str, str], tuple[float, str]] = {}
+    for c in corners:
+        for role, stresses in c["roles"].items():
+            for key, value in stresses.items():
+                if value is not None and ((role, key) not in worst or value > worst[(role, key)][0]):
+                    worst[(role, key)] = (value, c["id"])
     table = Table("role", "stress", "worst", "corner")
-    for row in result.worst():
-        table.add_row(row["role"], row["stress"], format_quantity(row["value"], row["kind"]), row["corner"] or "—")
+    for (role, key), (value, corner) in worst.items():
+        table.add_row(role, key, format_quantity(value, STRESS_KINDS.get(key.split(":")[0])), corner)
     out.print(table)
-    for note in result.notes:
+    if "parts" in data:
+        parts = Table("refs", "part", "role", "stress", "worst", "corner")
+        kinds = {"voltage": "V", "current_rms": "A", "current_peak": "A", "current_avg": "A", "power": "W",
+                 "temperature": "degC", "ripple_current": "A", "capacitance": "F", "life": "h", "saturation": "A"}
+        for p in data["parts"]:
+            for name, value in p["stresses"].items():
+                parts.add_row(", ".join(p["refs"]), p["part_number"], p["role"], name,
+                              format_quantity(value, kinds.get(name)), p["worst_corner"].get(name, "—"))
+        out.print(parts)
+    for method, tol in data.get("tolerances", {}).items():
+        t = Table("stress", "nominal", "worst", *(["99.7 %"] if method == "monte_carlo" else []), "corner",
+                  title=f"tolerances: {method.replace('_', ' ')}")
+        for key, row in tol["stresses"].items():
+            kind = row.get("kind")
+            t.add_row(key, format_quantity(row["nominal"], kind), format_quantity(row["worst"], kind),
+                      *([format_quantity(row["p99_7"], kind)] if method == "monte_carlo" else []), row["corner"] or "—")
+        out.print(t)
+    for note in data.get("notes", []):
         out.print(f"note: {note}", markup=False)
 
 

@@ -409,6 +409,9 @@ def extra_items(extra, parts: dict[str, Any], ctx: PartContext, policy) -> list[
             if value is not None:
                 out.add(parameter, value, "user", temperature=ctx.design.environment.ambient_max,
                         detail=extra.note or "given in [[extra_stress]]")
+                if parameter == "current_peak" and parts[ref].category == "magnetic":
+                    # A magnetic part's peak current is what its core must carry: the saturation check.
+                    out.add("saturation", value, "user", detail=extra.note or "given in [[extra_stress]]")
         items += out.items
     return items
 

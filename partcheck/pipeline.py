@@ -143,6 +143,21 @@ def _line_findings(matches, assigned_refs: set[str], extra_refs: set[str]) -> li
     return findings
 
 
+def _unlimited_parts(findings: list[Finding], policy: Policy) -> list[Finding]:
+    """A part whose every stress went unchecked (no rule limits any of them) is not assessed."""
+    by_part: dict[tuple, list[Finding]] = {}
+    for f in findings:
+        by_part.setdefault((f.refs, f.part_number, f.role), []).append(f)
+    out = []
+    for (refs, part_number, role), group in by_part.items():
+        if group and all(f.status == "unlimited" for f in group):
+            params = ", ".join(sorted({f.parameter for f in group}))
+            out.append(not_assessed_finding(
+                refs, part_number, role, f"policy {policy.name} has no rule for any stress computed for this part "
+                f"({params}): add a rule or map the part to a role", category=group[0].category))
+    return out
+
+
 def _part_items(design, assignment, ctx, policy, *, override: tuple[str, Any] | None = None):
     items = []
     for role, refs in assignment.roles.items():
@@ -156,6 +171,72 @@ def _part_items(design, assignment, ctx, policy, *, override: tuple[str, Any] | 
         if override is None:
             items += partstress.extra_items(extra, assignment.records, ctx, policy)
     return items
+
+
+@dataclasses.dataclass
+class _Prepared:
+    design: Design
+    matches: list
+    assignment: _Assignment
+    stress_result: flyback.StressResult
+    ctx: partstress.PartContext
+    items: list
+    records_by_pn: dict[str, Any]
+    notes: list[str]
+
+
+def _prepare(design: Design, bom_data: Bom, cat, pins: dict[str, str], policy: Policy | None) -> _Prepared:
+    """Match the BOM, solve the corners and compute every mapped part's stress items."""
+    records = cat.parts()
+    records_by_pn = {p.part_number: p for p in records}
+    matches = match_bom(bom_data, records, pins)
+    assignment = _assign(design, matches, records_by_pn)
+    rect_parts = {}
+    for role, refs in assignment.roles.items():
+        if role.split(":")[0] == "rectifier" and refs:
+            name = role.split(":")[1] if ":" in role else design.outputs[0].name
+            rect_parts[name] = assignment.records[refs[0]]
+    design, vf_notes = _with_catalog_vf(design, rect_parts)
+    stress_result, corners = _corners(design)
+    ctx = partstress.PartContext(design, corners)
+    items = _part_items(design, assignment, ctx, policy)
+    return _Prepared(design, matches, assignment, stress_result, ctx, items, records_by_pn, vf_notes)
+
+
+def stress_report(design_path: str | Path | Design, *, bom: str | Path | None = None, db: str | None = None,
+                  catalog: Any = None, samples: int | None = None, seed: int = 0) -> dict:
+    """``partcheck stress``: role stresses per corner; with a BOM also each part's stresses; with
+    tolerances (``[tolerances]``) the worst case by the extremes and, with ``samples``, Monte Carlo.
+
+    The part section compares nothing with a policy; ratings are those the shipped default
+    policy would use.
+    """
+    from .catalog.store import open_catalog
+    from .stress import tolerances as tol
+
+    design = design_path if isinstance(design_path, Design) else load_design(design_path)
+    bom_path = Path(bom) if bom is not None else None
+    if bom_path is None:
+        data = flyback.evaluate(design).to_dict()
+    else:
+        own = catalog is None
+        cat = open_catalog(db, create=False) if own else catalog
+        try:
+            prep = _prepare(design, read_bom(bom_path), cat, dict(design.pins), load_policy(DEFAULT_POLICY))
+        finally:
+            if own:
+                cat.close()
+        design = prep.design
+        data = prep.stress_result.to_dict()
+        data["notes"] = list(data["notes"]) + prep.notes
+        data["parts"] = _part_stresses(prep.items)
+        data["bank_split"] = _clean(prep.ctx.bank_splits)
+        data["assumptions"] = sorted(prep.ctx.assumptions)
+    if design.tolerances:
+        data["tolerances"] = {"worst_case": _clean(tol.worst_case(design))}
+        if samples:
+            data["tolerances"]["monte_carlo"] = _clean(tol.monte_carlo(design, samples=samples, seed=seed))
+    return data
 
 
 def check(design_path: str | Path | Design, *, bom: str | Path | None = None, policy: str | None = None,
@@ -189,26 +270,15 @@ def check(design_path: str | Path | Design, *, bom: str | Path | None = None, po
     own_catalog = catalog is None
     cat = open_catalog(db, create=False) if own_catalog else catalog
     try:
-        records = cat.parts()
-        records_by_pn = {p.part_number: p for p in records}
-        all_pins = {**design.pins, **(pins or {})}
-        matches = match_bom(bom_data, records, all_pins)
-        assignment = _assign(design, matches, records_by_pn)
-
-        rect_parts = {}
-        for role, refs in assignment.roles.items():
-            if role.split(":")[0] == "rectifier" and refs:
-                name = role.split(":")[1] if ":" in role else design.outputs[0].name
-                rect_parts[name] = assignment.records[refs[0]]
-        design, vf_notes = _with_catalog_vf(design, rect_parts)
-        stress_result, corners = _corners(design)
-        ctx = partstress.PartContext(design, corners)
-        items = _part_items(design, assignment, ctx, pol)
-
+        prep = _prepare(design, bom_data, cat, {**design.pins, **(pins or {})}, pol)
+        design, matches, assignment, stress_result, ctx, items, records_by_pn = (
+            prep.design, prep.matches, prep.assignment, prep.stress_result, prep.ctx, prep.items, prep.records_by_pn)
+        vf_notes = prep.notes
         findings = evaluate(items, pol, waivers=waivers, today=today)
         assigned = {r for refs in assignment.roles.values() for r in refs}
         extra_refs = {r for e in design.extra_stress for r in e.refs}
         findings += assignment.findings + _line_findings(matches, assigned, extra_refs)
+        findings += _unlimited_parts(findings, pol)
         findings = [f for f in findings if f.status in _REPORTED]
 
         _suggest_alternatives(findings, design, assignment, ctx, pol, cat, waivers, today)
