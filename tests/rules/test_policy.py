@@ -409,3 +409,31 @@ def test_line_found_for_quoted_table_header(write):
     path = write("p.toml", '# header\n\n[rules."sw"]\ncategory = "switch"\nparameter = "voltage"\nfraction = 3\n'
                            'source = "t"\nconfidence = "read"\n')
     assert _error(path).startswith(f"{path}, line 6, key 'rules.sw.fraction'")
+
+
+def test_min_fraction_out_of_range(write):
+    path = write("p.toml", RULE.format(id="c", category="capacitor", parameter="capacitance",
+                                       limit="min_fraction = 1.5"))
+    assert _error(path) == (
+        f"{path}, line 4, key 'rules.c.min_fraction': min_fraction must be > 0 and ≤ 1 (a fraction of the rating), "
+        "got 1.5"
+    )
+
+
+def test_offset_only_on_temperatures(write):
+    path = write("p.toml", RULE.format(id="v", category="switch", parameter="voltage", limit='offset = "5 K"'))
+    assert _error(path) == f"{path}, line 4, key 'rules.v.offset': 'offset' applies to temperature rules only"
+
+
+def test_dielectric_only_on_capacitors(write):
+    path = write("p.toml", '[rules.x]\ncategory = "diode"\ndielectric = "X7R"\nparameter = "voltage"\n'
+                           'fraction = 0.7\nsource = "t"\nconfidence = "read"\n')
+    assert _error(path) == f"{path}, line 3, key 'rules.x.dielectric': 'dielectric' applies to capacitors only"
+
+
+def test_life_minimum_in_hours(write):
+    path = write("p.toml", RULE.format(id="l", category="capacitor", parameter="life", limit='min = "60000 V"'))
+    assert _error(path) == (
+        f"{path}, line 4, key 'rules.l.min': '60000 V' is not a duration in hours (h) (the unit says a voltage "
+        '(V)); min expects such as "60000 h"'
+    )
