@@ -357,16 +357,25 @@ def rule_view(rule: dict[str, Any]) -> dict[str, str]:
     }
 
 
+_URL_PASSWORD = re.compile(r"(\b[A-Za-z][\w+.-]*://[^:/@\s]+):[^@\s]+@")
+
+
+def _redact(text: str) -> str:
+    """A URL's password replaced by ``***`` (a catalog URL may carry one)."""
+    return _URL_PASSWORD.sub(r"\1:***@", text)
+
+
 def trace_view(trace: dict[str, Any]) -> list[dict[str, Any]]:
+    """Traceability rows in a fixed order, then any other keys; passwords in URLs are masked."""
     rows = []
     seen = set()
     for key, label in TRACE_LABELS:
         seen.add(key)
-        rows.append({"key": key, "label": label, "value": _text(trace.get(key)) or "—",
+        rows.append({"key": key, "label": label, "value": _redact(_text(trace.get(key))) or "—",
                      "mono": key.endswith("sha256") or key == "command"})
     for key, value in trace.items():
         if key not in seen:
-            rows.append({"key": str(key), "label": str(key).replace("_", " "), "value": _text(value) or "—",
+            rows.append({"key": str(key), "label": str(key).replace("_", " "), "value": _redact(_text(value)) or "—",
                          "mono": False})
     return rows
 
