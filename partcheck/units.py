@@ -245,6 +245,8 @@ def _split_suffix(suffix: str, text: str, kind: str | None) -> float | None:
                 unit_kind = _kind_of(symbol, kind)
                 # A bare "K", "M", "m" may be a prefix rather than a unit (kelvin, ...).
                 if candidate_rest == "" and symbol in PREFIXES and unit_kind != kind:
+                    if kind == "degC" and unit_kind == "K":  # "300 K": kelvin, not the kilo prefix
+                        raise _fail(text, kind, "temperatures are written in °C here, not kelvin")
                     unit_kind = None
                     break
                 rest = candidate_rest
@@ -304,7 +306,7 @@ _FORMAT_PREFIXES: Final = {-15: "f", -12: "p", -9: "n", -6: "µ", -3: "m", 0: ""
 
 def _trim(mantissa: float, digits: int) -> str:
     text = f"{mantissa:.{digits}g}"
-    if "e" in text:  # .g fell back to exponent form (e.g. 1e+03): spell out the rounded value
+    if "e+" in text:  # .g fell back to exponent form (e.g. 1e+03): spell out the rounded value
         text = format(Decimal(text), "f")
     return text
 
