@@ -11,6 +11,9 @@ page by :func:`pattern_defs` (solid, diagonal hatch, cross-hatch, dots), and eve
 text label.  The patterns are drawn in dark ink over a pale tint so they survive black-and-white
 printing.
 
+The elements are meant for inline use in HTML5, where ``<svg>`` needs no namespace
+declaration, so the page holds no URL at all.
+
 Output is deterministic (fixed number formatting, no ids beyond the shared pattern ids), so a
 report rendered twice from the same result is byte-identical.
 """
@@ -115,7 +118,7 @@ class Svg:
 
     def __str__(self) -> str:
         head = (
-            f'<svg xmlns="http://www.w3.org/2000/svg" class={quoteattr(self.css_class)} role="img"'
+            f'<svg class={quoteattr(self.css_class)} role="img"'
             f' viewBox="0 0 {_num(self.width)} {_num(self.height)}" width="{_num(self.width)}"'
             f' height="{_num(self.height)}" aria-label={quoteattr(self.label)}>'
         )
@@ -129,7 +132,7 @@ def pattern_defs() -> str:
     waived: dots; not assessed / unmatched: open (white) bar.
     """
     return (
-        '<svg xmlns="http://www.w3.org/2000/svg" class="defs" width="0" height="0" aria-hidden="true"'
+        '<svg class="defs" width="0" height="0" aria-hidden="true"'
         ' focusable="false"><defs>'
         '<pattern id="pc-pass" width="6" height="6" patternUnits="userSpaceOnUse">'
         '<rect width="6" height="6" fill="#cfe3d3"/></pattern>'

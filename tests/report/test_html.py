@@ -191,6 +191,9 @@ def test_sections_and_contents(html):
     assert "generic curve for the dielectric" in html
     assert "NASA EEE-INST-002, table 8 (MOSFET, voltage) <em>(recalled from memory)</em>" in html
     assert "BOM lines that matched no catalog part" in html and "HDR 2x3 2.54mm gate drive" in html
+    assert "No numbers: the BOM line matched no catalog part." in html
+    assert "No numbers: the part was not assessed (role controller)." in html
+    assert "worst 50.6 V at 16 V; within limit everywhere" in html  # D1 in the sweep, as in its finding
 
 
 def test_print_stylesheet(html):
