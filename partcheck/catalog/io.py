@@ -446,6 +446,9 @@ def validate(table: Table, curve_table: Table | None = None, *, existing: Iterab
     # Identity columns first: everything else is checked against the category.
     cats: list[str | None] = [None] * n
     for i, cell in enumerate(columns["category"]):
+        if cell in CATEGORIES:  # the common case, checked first and at once
+            cats[i] = cell
+            continue
         line, key = _where(table, i)
         if _is_empty(cell):
             problems.append(Problem("the category is empty; expected one of " + ", ".join(CATEGORIES), line,
@@ -461,20 +464,23 @@ def validate(table: Table, curve_table: Table | None = None, *, existing: Iterab
     pns: list[str | None] = [None] * n
     first_line: dict[str, int | None] = {}
     for i, cell in enumerate(columns["part_number"]):
-        line, key = _where(table, i)
         if _is_empty(cell):
+            line, key = _where(table, i)
             problems.append(Problem("the part number is empty", line, "part_number", key))
             continue
         pn = _text_cell(cell)
         if not pn.isprintable():
+            line, key = _where(table, i)
             problems.append(Problem(f"{pn!r} contains a control character", line, "part_number", key))
             continue
         if pn in first_line:
+            line, key = _where(table, i)
             where = f"line {first_line[pn]}" if first_line[pn] is not None else "earlier"
             problems.append(Problem(f"part number {pn!r} appears twice (first on {where})", line, "part_number", key))
         else:
-            first_line[pn] = line
+            first_line[pn] = table.lines[i]
             if pn in existing and not update:
+                line, key = _where(table, i)
                 problems.append(Problem(f"part number {pn!r} is already in the catalog; "
                                         "import with --update to replace it", line, "part_number", key))
         pns[i] = pn
@@ -574,11 +580,14 @@ def _text_value(name: str, cell: object, cat: str | None) -> str:
 
 def _cross_checks(values: dict[str, list], table: Table, problems: list[Problem]) -> None:
     for low, high in (("ctr_min", "ctr_max"), ("ika_min", "ika_max")):
+        if not (any(values[low]) and any(values[high])):
+            continue
         for i, (lo, hi) in enumerate(zip(values[low], values[high])):
             if lo is not None and hi is not None and lo > hi:
                 line, key = _where(table, i)
                 problems.append(Problem(f"{low} {lo!r} is above {high} {hi!r}", line, low, key))
-    for i, (dielectric, subtype) in enumerate(zip(values["dielectric"], values["subtype"])):
+    for i, (dielectric, subtype) in enumerate(zip(values["dielectric"], values["subtype"]) if any(
+            values["dielectric"]) else ()):
         if dielectric is not None and subtype not in (None, "ceramic"):
             line, key = _where(table, i)
             problems.append(Problem(f"a dielectric code is for ceramic capacitors, not {subtype}",

@@ -18,6 +18,7 @@ import os
 from collections import defaultdict
 from contextlib import contextmanager
 from dataclasses import dataclass
+from operator import itemgetter
 from pathlib import Path
 from typing import IO, Iterator, Literal
 
@@ -289,8 +290,12 @@ class Catalog:
             by_category[cats[i]].append(i)  # type: ignore[index]
         for category, group in by_category.items():
             cols = CATEGORY_FIELDS[category]
-            values = [v.columns[c] for c in cols]
-            _executemany(conn, PART, cols, [tuple(col[i] for col in values) for i in group])
+            if len(group) == len(cats):
+                picked = [v.columns[c] for c in cols]
+            else:
+                take = itemgetter(*group) if len(group) > 1 else (lambda col, i=group[0]: (col[i],))
+                picked = [take(v.columns[c]) for c in cols]
+            _executemany(conn, PART, cols, list(zip(*picked)))
 
     @staticmethod
     def _insert_orm(conn, records: list[dict]) -> None:
