@@ -56,6 +56,7 @@ class PartContext:
     assumptions: set[str] = field(default_factory=set)
     bank_splits: dict[str, dict] = field(default_factory=dict)  # role → worst-corner split, for the report
     losses: dict[str, dict[str, float]] = field(default_factory=dict)  # corner → part → W
+    notes: list[str] = field(default_factory=list)  # operating remarks for the reviewer
 
     @property
     def current_corners(self) -> list[Corner]:
@@ -374,7 +375,8 @@ def feedback_items(refs, parts: dict[str, Any], role, ctx: PartContext, policy) 
             out.add("current_avg", None, "vin_nom-full", detail="give [feedback] r_led (and r_bias) to assess the loop")
             items += out.items
         return items
-    v_led = float(fb.get("v_led", DEFAULT_LED_VF_V)) if isinstance(fb.get("v_led", 0), (int, float)) else DEFAULT_LED_VF_V
+    v_led = fb.get("v_led_f", fb.get("v_led", DEFAULT_LED_VF_V))
+    v_led = float(v_led) if isinstance(v_led, (int, float)) else DEFAULT_LED_VF_V
     v_ka = float(fb.get("v_ka", DEFAULT_SHUNT_VKA_V)) if isinstance(fb.get("v_ka", 0), (int, float)) else DEFAULT_SHUNT_VKA_V
     r_bias = fb.get("r_bias") if isinstance(fb.get("r_bias"), (int, float)) else None
     opto = next((parts[r] for r in parts if parts[r].category == "optocoupler"), None)
@@ -384,6 +386,14 @@ def feedback_items(refs, parts: dict[str, Any], role, ctx: PartContext, policy) 
                               i_c_needed=fb.get("i_c_needed") if isinstance(fb.get("i_c_needed"), (int, float)) else None)
     ctx.assumptions.add(f"optocoupler loop: LED Vf {v_led:g} V, shunt cathode {v_ka:g} V (defaults unless given in "
                         "[feedback]); CTR degradation model is an assumption the user must confirm")
+    life_text = f"after {life:,.0f} h" if life else "at the start of life"
+    note = (f"optocoupler loop: LED {loop.i_led * 1e3:.3g} mA, shunt cathode {loop.i_k * 1e3:.3g} mA; minimum CTR "
+            f"{life_text} {loop.ctr_eol:.0%} gives {loop.i_c_available * 1e3:.3g} mA collector current"
+            + (f" against {fb['i_c_needed'] * 1e3:.3g} mA needed (margin {loop.ctr_margin:+.0%})"
+               if loop.ctr_margin is not None else "")
+            + ("" if loop.loop_ok else " — the loop does NOT keep the current it needs"))
+    if note not in ctx.notes:
+        ctx.notes.append(note)
     for r in refs:
         p = parts[r]
         out = _Items([r], p, role, policy)

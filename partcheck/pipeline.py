@@ -288,7 +288,7 @@ def check(design_path: str | Path | Design, *, bom: str | Path | None = None, po
         if own_catalog:
             cat.close()
 
-    notes = list(stress_result.notes) + vf_notes + _efficiency_notes(design, ctx)
+    notes = list(stress_result.notes) + vf_notes + _efficiency_notes(design, ctx) + _regulation_notes(design, items) + ctx.notes
     result = CheckResult(
         design=design.name, policy=pol.name, policy_origin=origin, verdict=verdict(findings, pol),
         findings=[_finding_dict(f) for f in findings],
@@ -464,6 +464,29 @@ def _efficiency_notes(design, ctx) -> list[str]:
     if check.warn:
         text += " — the two differ by more than 3 points: revise [converter] efficiency"
     return [text]
+
+
+def _regulation_notes(design, items) -> list[str]:
+    """Primary-side control: the output spread the rectifier's Vf change causes; optocoupler
+    control: whether the loop keeps its current after the CTR has aged."""
+    from .stress import feedback as fb
+
+    notes = []
+    o = design.outputs[0]
+    if design.converter.control == "primary-side":
+        t_lo = design.environment.ambient_min if design.environment.ambient_min is not None else 25.0
+        t_hi = max((it.stress for it in items if it.role.startswith("rectifier") and it.parameter == "temperature"
+                    and it.stress is not None), default=design.environment.ambient_max)
+        target = design.requirements.get("regulation")
+        spread = fb.psr_output_spread(o.vout, o.vf, max(t_hi - t_lo, 0.0), 0.1 * o.iout, o.iout,
+                                      target_pct=target * 100 if target else None)
+        text = (f"primary-side regulation: the rectifier's forward-drop change over {t_lo:.0f}–{t_hi:.0f} °C and "
+                f"10–100 % load spreads {o.name} by about ±{spread.spread_pct:.2g} % "
+                f"(typical primary-side accuracy ±{spread.typical_pct[0]:g}–{spread.typical_pct[1]:g} %, common practice)")
+        if spread.meets_target is not None:
+            text += f"; the design's target ±{target * 100:g} % is {'met' if spread.meets_target else 'NOT met'}"
+        notes.append(text)
+    return notes
 
 
 def affected(findings: Sequence[dict]) -> list[dict]:
