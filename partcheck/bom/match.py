@@ -42,6 +42,8 @@ DEFAULT_AMBIGUITY_GAP: Final = 3.0
 #: Text similarity of a line's description to a part's description above which a contradiction
 #: of values is reported as a conflict rather than as "no such part".
 CONFLICT_TEXT: Final = 95.0
+#: Rows scored by text at a time (see ``Matcher._score_block``).
+_CHUNK: Final = 256
 
 STATUSES: Final = ("matched", "ambiguous", "unmatched", "conflict", "not_fitted")
 
@@ -51,11 +53,13 @@ PACKAGING_SUFFIXES: Final = ("TR-ND", "CT-ND", "DKR-ND", "ND", "TR", "T", "REEL"
 _SUFFIX_RE: Final = re.compile(r"(?:[-/_ .](?:" + "|".join(PACKAGING_SUFFIXES) + r")|#)$", re.IGNORECASE)
 
 #: Per category: (BOM value key, catalog field, how they must agree, unit kind for messages).
-#: ``nominal``: within tolerance; ``min``: the part's rating at least the BOM's; ``near``: within 10 %.
+#: ``nominal``: within tolerance; ``min``: the part's rating at least the BOM's; ``max``: at most the
+#: BOM's (a tighter tolerance will do); ``near``: within 10 %.
 SPECS: Final[dict[str, tuple[tuple[str, str, str, str], ...]]] = {
-    "capacitor": (("capacitance", "capacitance", "nominal", "F"), ("v_rated", "v_rated", "min", "V")),
+    "capacitor": (("capacitance", "capacitance", "nominal", "F"), ("v_rated", "v_rated", "min", "V"),
+                  ("tolerance", "tolerance", "max", "%")),
     "resistor": (("resistance", "resistance", "nominal", "ohm"), ("p_rated", "p_rated", "min", "W"),
-                 ("v_rated", "v_max", "min", "V")),
+                 ("v_rated", "v_max", "min", "V"), ("tolerance", "tolerance", "max", "%")),
     "magnetic": (("inductance", "lm", "nominal", "H"), ("i_rated", "isat", "min", "A")),
     "diode": (("v_rated", "vrrm", "min", "V"), ("i_rated", "if_avg", "min", "A")),
     "switch": (("v_rated", "vds_max", "min", "V"), ("i_rated", "id_max", "min", "A")),
@@ -68,7 +72,7 @@ CATEGORIES: Final = tuple(SPECS)
 _HARD_SUBTYPE: Final = frozenset({"capacitor", "diode", "clamp"})
 _IMPERIAL: Final = frozenset({"01005", "0201", "0402", "0603", "0805", "1008", "1206", "1210", "1806", "1808",
                               "1812", "2010", "2220", "2225", "2512"})
-_RATING_WORDS: Final = {"nominal": "", "min": "rated ≥ ", "near": "≈ "}
+_RATING_WORDS: Final = {"nominal": "", "min": "rated ≥ ", "near": "≈ ", "max": "±≤ "}
 _CATEGORY_NAMES: Final = {"capacitor": "capacitor", "resistor": "resistor", "magnetic": "magnetic part",
                           "diode": "diode", "switch": "switch", "clamp": "clamp", "optocoupler": "optocoupler",
                           "reference": "voltage reference"}
@@ -129,12 +133,17 @@ class _Block:
 
     idx: np.ndarray  # indices into Matcher.parts
     keys: list[str]  # normalised fuzzy text per part
+    keys_array: np.ndarray  # the same as an object array, for fancy indexing
     descriptions: list[str]  # normalised description per part
     ratings: dict[str, np.ndarray]  # catalog field → float array (NaN when empty)
     tolerance: np.ndarray
     package: np.ndarray  # int codes, -1 when empty
     dielectric: np.ndarray
     subtype: np.ndarray
+    #: The nominal-value field (capacitance, resistance, lm) sorted, for a range search.
+    primary: tuple[str, np.ndarray, np.ndarray, np.ndarray] | None = None  # BOM key, sorted values, order, NaN rows
+    max_tolerance: float = 0.05
+    by_code: dict[str, tuple[dict[int, np.ndarray], np.ndarray]] = field(default_factory=dict)
 
 
 def _attr(part: Any, name: str) -> Any:
@@ -150,7 +159,7 @@ def _part_key(part: Any) -> str:
              _attr(part, "dielectric") or "", _attr(part, "case_size") or "", _attr(part, "package") or ""]
     for _bkey, fname, _mode, kind in SPECS.get(part.category, ()):
         v = _attr(part, fname)
-        if isinstance(v, (int, float)) and v > 0:
+        if isinstance(v, (int, float)) and v > 0 and kind != "%":
             words.append(quantity_token(float(v), kind))
     return normalise_text(" ".join(w for w in words if w))
 
@@ -184,9 +193,10 @@ class Matcher:
         ratings = {}
         for _bkey, fname, _mode, _kind in SPECS.get(cat, ()):
             ratings[fname] = np.array([_num(_attr(p, fname)) for p in parts], dtype=float)
-        return _Block(
+        block = _Block(
             idx=np.array(idx, dtype=np.int64),
-            keys=[_part_key(p) for p in parts],
+            keys=(keys := [_part_key(p) for p in parts]),
+            keys_array=np.array(keys, dtype=object),
             descriptions=[normalise_text(_attr(p, "description") or "") for p in parts],
             ratings=ratings,
             tolerance=np.array([_num(_attr(p, "tolerance")) for p in parts], dtype=float),
@@ -195,6 +205,20 @@ class Matcher:
             subtype=np.array([self._code("sub:" + s if (s := _attr(p, "subtype")) else None) for p in parts],
                              dtype=np.int64),
         )
+        nominal = [(bkey, fname) for bkey, fname, mode, _k in SPECS.get(cat, ()) if mode == "nominal"]
+        if nominal:
+            values = ratings[nominal[0][1]]
+            order = np.argsort(values, kind="stable")  # NaN sorts last
+            finite = int(np.count_nonzero(~np.isnan(values)))
+            block.primary = (nominal[0][0], values[order[:finite]], order[:finite], order[finite:])
+        tol = block.tolerance[~np.isnan(block.tolerance)]
+        block.max_tolerance = max(0.05, float(tol.max()) if tol.size else 0.05)
+        for name, arr in (("package", block.package), ("subtype", block.subtype), ("dielectric", block.dielectric)):
+            order = np.argsort(arr, kind="stable")
+            codes, starts = np.unique(arr[order], return_index=True)
+            groups = dict(zip(codes.tolist(), np.split(order, starts[1:]), strict=True)) if len(arr) else {}
+            block.by_code[name] = (groups, groups.get(-1, np.empty(0, dtype=np.int64)))
+        return block
 
     # ------------------------------------------------------------------------------------------
     def match_line(self, line: BomLine, pins: dict[str, str] | None = None) -> LineMatch:
@@ -317,7 +341,7 @@ class Matcher:
                                         + "; ".join(_disagreements(line, part)),
                                  candidates=[(part.part_number, round(tscore, 1))] + candidates, **base)
             if not scored:
-                closest = self._closest_text(query, cats)
+                closest = self._closest_text(query, cats, line)
                 reason = note + f"no {wanted} in the catalog"
                 if closest:
                     reason += f"; closest by text: {closest[0][0]} ({self._summary(closest[0][0])})"
@@ -348,9 +372,48 @@ class Matcher:
         return LineMatch(status="matched", part_number=part.part_number, score=round(best[0], 1), method="fuzzy",
                          reason=reason, candidates=candidates, **base)
 
+    def _candidate_rows(self, b: _Block, line: BomLine, hard: list[tuple[str, int]]) -> np.ndarray | None:
+        """The smallest superset of the rows that can pass the hard filters (None: the whole block).
+
+        A range search on the sorted nominal value, or the rows of one package/subtype/dielectric
+        code (plus the rows that do not state it), keeps the vectorised filters to a few rows.
+        """
+        options = []
+        if b.primary is not None:
+            bkey, sorted_vals, order, nan_rows = b.primary
+            want = line.values.get(bkey)
+            if want is not None and want > 0:
+                tol = line.values.get("tolerance") or b.max_tolerance
+                tol = max(tol, 0.005) + 1e-9
+                lo = np.searchsorted(sorted_vals, want * (1 - tol), side="left")
+                hi = np.searchsorted(sorted_vals, want * (1 + tol), side="right")
+                options.append(np.concatenate((order[lo:hi], nan_rows)))
+        for name, code in hard:
+            groups, unknown = b.by_code[name]
+            options.append(np.concatenate((groups.get(code, np.empty(0, dtype=np.int64)), unknown)))
+        if not options:
+            return None
+        return min(options, key=len)
+
     def _score_block(self, cat: str, line: BomLine, query: str) -> list[tuple[float, float, str, int]]:
         b = self.blocks[cat]
-        n = len(b.keys)
+        checks = []  # (kind, BOM text or None, block array name, hard)
+        for text, name, hard in ((line.package, "package", line.package in _IMPERIAL),
+                                 (line.dielectric if cat == "capacitor" else None, "dielectric", True),
+                                 ("sub:" + line.subtype_hint if line.subtype_hint else None, "subtype",
+                                  cat in _HARD_SUBTYPE)):
+            if not text:
+                continue
+            code = self._codes.get(text, -2)
+            if name == "subtype" and code == -2:
+                continue  # no part in the catalog states this subtype: it cannot decide anything
+            checks.append((name, code, hard))
+        rows = self._candidate_rows(b, line, [(n, c) for n, c, h in checks if h])
+        if rows is None:
+            rows = np.arange(len(b.keys))
+        if rows.size == 0:
+            return []
+        n = rows.size
         ok = np.ones(n, dtype=bool)
         credit_sum = np.zeros(n, dtype=float)
         n_attrs = np.zeros(n, dtype=float)  # per part: the line's attributes the part states too
@@ -358,13 +421,14 @@ class Matcher:
             want = line.values.get(bkey)
             if want is None or want <= 0:
                 continue
-            have = b.ratings[fname]
+            have = b.ratings[fname][rows]
             known = ~np.isnan(have)
             n_attrs += known
             with np.errstate(invalid="ignore", divide="ignore"):
                 if mode == "nominal":
                     tol = line.values.get("tolerance")
-                    tol_arr = np.full(n, tol) if tol else np.where(np.isnan(b.tolerance), 0.05, b.tolerance)
+                    part_tol = b.tolerance[rows]
+                    tol_arr = np.full(n, tol) if tol else np.where(np.isnan(part_tol), 0.05, part_tol)
                     rel = np.abs(have - want) / want
                     agree = rel <= np.maximum(tol_arr, 0.005) + 1e-9
                     credit = np.where(rel <= 0.005, 1.0, 0.6)
@@ -372,41 +436,61 @@ class Matcher:
                     ratio = have / want
                     agree = ratio >= 1.0 - 1e-6
                     credit = 1.0 - 0.5 * np.clip(ratio - 1.0, 0.0, 1.0)
+                elif mode == "max":
+                    ratio = have / want
+                    agree = ratio <= 1.0 + 1e-6
+                    credit = np.where(ratio >= 1.0 - 1e-6, 1.0, 0.7)
                 else:  # near
                     rel = np.abs(have - want) / want
                     agree = rel <= 0.10
                     credit = 1.0 - 4.0 * np.clip(rel, 0.0, 0.1)
             ok &= ~known | agree
             credit_sum += np.where(known & agree, credit, 0.0)
-        for text, arr, hard in ((line.package, b.package, line.package in _IMPERIAL),
-                                (line.dielectric if cat == "capacitor" else None, b.dielectric, True),
-                                ("sub:" + line.subtype_hint if line.subtype_hint else None, b.subtype,
-                                 cat in _HARD_SUBTYPE)):
-            if not text:
-                continue
-            code = self._codes.get(text, -2)
-            if hard and text.startswith("sub:") and code == -2 and not np.any(arr >= 0):
-                continue
+        for name, code, hard in checks:
+            arr = getattr(b, name)[rows]
             n_attrs += arr >= 0
             same = arr == code
             if hard:
                 ok &= same | (arr < 0)
             credit_sum += same
-        survivors = np.flatnonzero(ok)
-        if survivors.size == 0:
+        keep_rows = np.flatnonzero(ok)
+        if keep_rows.size == 0:
             return []
-        choices = [b.keys[i] for i in survivors]
-        workers = -1 if len(choices) > 2000 else 1
-        t_set = process.cdist([query], choices, scorer=fuzz.token_set_ratio, workers=workers, dtype=np.float32)[0]
-        t_sort = process.cdist([query], choices, scorer=fuzz.token_sort_ratio, workers=workers, dtype=np.float32)[0]
-        text_score = 0.5 * (t_set.astype(float) + t_sort.astype(float))
-        den = n_attrs[survivors]
-        with np.errstate(invalid="ignore", divide="ignore"):
-            total = np.where(den > 0, 0.45 * text_score + 55.0 * credit_sum[survivors] / np.maximum(den, 1.0),
-                             text_score)
+        survivors = rows[keep_rows]
+        credit = credit_sum[keep_rows]
+        den = n_attrs[keep_rows]
+        value_part = np.where(den > 0, 55.0 * credit / np.maximum(den, 1.0), 0.0)
+        weight = np.where(den > 0, 0.45, 1.0)
+        # Text is scored in chunks, best value agreement first; a chunk whose best possible total
+        # (text 100) falls short of the leader by more than the ambiguity gap cannot change the
+        # outcome, so the rest is skipped (exact pruning: the same winner and near-ties).
+        order = np.argsort(-(weight * 100.0 + value_part), kind="stable")
+        ceiling = (weight * 100.0 + value_part)[order]
+        totals: list[np.ndarray] = []
+        texts: list[np.ndarray] = []
+        picked: list[np.ndarray] = []
+        leader = -1.0
+        for start in range(0, order.size, _CHUNK):
+            if ceiling[start] < leader - self.ambiguity_gap - 1e-9:
+                break
+            chunk = order[start:start + _CHUNK]
+            choices = b.keys_array[survivors[chunk]].tolist()
+            workers = -1 if len(choices) > 2000 else 1
+            t_set = process.cdist([query], choices, scorer=fuzz.token_set_ratio, workers=workers, dtype=np.float32)[0]
+            t_sort = process.cdist([query], choices, scorer=fuzz.token_sort_ratio, workers=workers,
+                                   dtype=np.float32)[0]
+            text_score = 0.5 * (t_set.astype(float) + t_sort.astype(float))
+            total = weight[chunk] * text_score + value_part[chunk]
+            leader = max(leader, float(total.max()))
+            totals.append(total)
+            texts.append(text_score)
+            picked.append(chunk)
+        total = np.concatenate(totals)
+        text_score = np.concatenate(texts)
+        chosen = np.concatenate(picked)
         keep = min(len(total), 8)
-        top = np.argpartition(-total, keep - 1)[:keep] if len(total) > keep else np.arange(len(total))
-        return [(float(total[j]), float(text_score[j]), cat, int(b.idx[survivors[j]])) for j in top]
+        best = np.argpartition(-total, keep - 1)[:keep] if len(total) > keep else np.arange(len(total))
+        return [(float(total[j]), float(text_score[j]), cat, int(b.idx[survivors[chosen[j]]])) for j in best]
 
     def _copied_description(self, line: BomLine, cats: list[str]):
         desc = normalise_text(line.description)
@@ -422,12 +506,18 @@ class Matcher:
             return best
         return None
 
-    def _closest_text(self, query: str, cats: list[str]) -> list[tuple[str, float]]:
+    def _closest_text(self, query: str, cats: list[str], line: BomLine) -> list[tuple[str, float]]:
+        """The three parts nearest by text, among those near the line's nominal value when it has one."""
         found: list[tuple[str, float]] = []
         for cat in cats:
             b = self.blocks[cat]
-            for _choice, score, j in process.extract(query, b.keys, scorer=fuzz.token_set_ratio, limit=3):
-                found.append((self.parts[int(b.idx[j])].part_number, round(float(score), 1)))
+            rows = self._candidate_rows(b, line, [])
+            if rows is None or rows.size == 0:
+                rows = np.arange(len(b.keys))
+            scores = process.cdist([query], b.keys_array[rows].tolist(), scorer=fuzz.token_set_ratio,
+                                   workers=-1 if rows.size > 2000 else 1, dtype=np.float32)[0]
+            top = np.argsort(-scores, kind="stable")[:3]
+            found.extend((self.parts[int(b.idx[rows[j]])].part_number, round(float(scores[j]), 1)) for j in top)
         found.sort(key=lambda c: -c[1])
         return found[:3]
 
@@ -491,6 +581,10 @@ def _disagreements(line: BomLine, part: Any) -> list[str]:
             if have < want * (1 - 1e-6):
                 problems.append(f"the BOM says {format_quantity(want, kind)} and the part is rated only "
                                 f"{format_quantity(have, kind)}")
+        elif mode == "max":
+            if have > want * (1 + 1e-6):
+                problems.append(f"the BOM says ±{format_quantity(want, kind)} and the part is only "
+                                f"±{format_quantity(have, kind)}")
         elif abs(have - want) / want > 0.10:
             problems.append(f"the BOM says {format_quantity(want, kind)} and the part is "
                             f"{format_quantity(have, kind)}")
@@ -528,7 +622,7 @@ def _wanted_words(line: BomLine, cats: list[str]) -> str:
     bits = []
     specs = SPECS.get(cats[0], ()) if len(cats) == 1 else ()
     for bkey, _fname, mode, kind in specs:
-        if bkey in line.values:
+        if bkey in line.values and mode != "max":
             v = format_quantity(line.values[bkey], kind)
             if mode == "nominal":
                 tol = line.values.get("tolerance")

@@ -205,6 +205,8 @@ def _tokens(text: str, decimal_comma: bool) -> list[str]:
 
 
 def _is_unit_word(word: str) -> bool:
+    if not word or not (word[0].isalpha() or word[0] in "µμΩΩ"):
+        return False
     for kind, _key in _KIND_KEYS:
         try:
             parse_quantity("1" + word, kind)

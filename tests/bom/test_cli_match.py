@@ -66,7 +66,7 @@ def test_not_a_table_runner(write, catalog_file):
 def test_not_a_table_subprocess(write, catalog_file):
     bom = write("scan.pdf", b"%PDF-1.4\n%\xe2\xe3\xcf\xd3\n")
     proc = subprocess.run([sys.executable, "-m", "partcheck", "match", str(bom), "--db", str(catalog_file)],
-                          capture_output=True, text=True, timeout=60)
+                          capture_output=True, text=True, timeout=60, check=False)
     assert proc.returncode == 2
     assert proc.stderr.strip() == (f"error: {bom}: this is a PDF document, not a table; export the BOM from the "
                                    "schematic tool or spreadsheet as CSV or XLSX")

@@ -210,7 +210,7 @@ def test_reference_error_names_line_and_column(write):
         (b"%PDF-1.7\n%\xe2\xe3\xcf\xd3\n1 0 obj\n", "this is a PDF document, not a table"),
         (b"\x7fELF\x02\x01\x01\x00\x00\x00\x00\x00", "this is a binary file, not a text table"),
         (b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1", "this is an old binary Office file (.xls)"),
-        ("This converter is a flyback.\nIt has a transformer.\nThat is all.\n".encode(),
+        (b"This converter is a flyback.\nIt has a transformer.\nThat is all.\n",
          "this is not a table: every line holds a single cell"),
         (b"PK\x03\x04garbage", "cannot open it as an XLSX workbook"),
     ],
