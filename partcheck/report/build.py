@@ -90,8 +90,17 @@ TRACE_LABELS: tuple[tuple[str, str], ...] = (
 )
 
 
+#: Statuses that are not findings' verdicts, shown after ``pass``: a BOM line not fitted, a stress
+#: that no rule limits.
+QUIET = ("not_fitted", "unlimited")
+
+
 def _rank(status: Any) -> int:
-    return STATUS_ORDER.index(status) if status in STATUS_ORDER else -1  # unknown status: top, to be seen
+    if status in STATUS_ORDER:
+        return STATUS_ORDER.index(status)
+    if status in QUIET:
+        return len(STATUS_ORDER) + QUIET.index(status)
+    return -1  # a status this report does not know: at the top, to be seen
 
 
 def _number(value: Any) -> float | None:
@@ -99,6 +108,16 @@ def _number(value: Any) -> float | None:
         return None
     value = float(value)
     return value if math.isfinite(value) else None
+
+
+def _fraction(value: Any) -> float | None:
+    """A number, or a string holding one ("0.9"); else None."""
+    if isinstance(value, str):
+        try:
+            value = float(value)
+        except ValueError:
+            return None
+    return _number(value)
 
 
 def _text(value: Any) -> str:
@@ -130,7 +149,7 @@ def _refs(value: Any) -> list[str]:
 def status_view(status: Any) -> dict[str, str]:
     """``{"status", "label", "symbol", "css"}`` for a status string (unknown ones shown as given)."""
     key = str(status)
-    css = key if key in STATUS_LABELS else "unknown"
+    css = key if key in STATUS_LABELS and key not in QUIET else "quiet" if key in QUIET else "unknown"
     return {"status": key, "label": STATUS_LABELS.get(key, key.upper()), "symbol": STATUS_SYMBOLS.get(key, "•"),
             "css": css}
 
@@ -142,9 +161,10 @@ def _warn_from(finding: dict[str, Any], rules: dict[str, dict[str, Any]]) -> flo
     rule = rules.get(str(finding.get("rule")))
     if not rule:
         return None
-    value = _number(rule.get("warn_from"))
-    if value is not None:
-        return value
+    for key in ("warn_from", "warn"):
+        value = _fraction(rule.get(key))
+        if value is not None:
+            return value
     band = _number(rule.get("warn_band"))
     return 1.0 - band if band is not None and 0.0 < band < 1.0 else None
 
@@ -197,6 +217,7 @@ def finding_view(finding: dict[str, Any], rules: dict[str, dict[str, Any]],
         "corner": _text(finding.get("corner")) or "—",
         "rule": _text(finding.get("rule")) or "—",
         "source": _text(finding.get("source")) or "—",
+        "confidence": _text(finding.get("confidence")),
         "detail": _text(finding.get("detail")),
         "waiver": waiver_view(waiver) if isinstance(waiver, dict) else None,
         "alternatives": alternatives,
@@ -247,7 +268,7 @@ def part_view(part: dict[str, Any], warn_from: float | None) -> dict[str, Any]:
         "worst_parameter": PARAMETER_LABELS.get(str(part.get("worst_parameter")), _text(part.get("worst_parameter"))),
         "bom_line": _text(part.get("bom_line")),
         "match": " ".join(x for x in (_text(match.get("method")),
-                                      f"({score:.2f})" if score is not None else "") if x),
+                                      f"({score:g})" if score is not None else "") if x),
         "match_reason": _text(match.get("reason")),
         "bar": Markup(plots.utilisation_bar(util, status["status"], warn_from, width=150, height=18))
         if util is not None else None,
@@ -312,14 +333,16 @@ def corner_table(corners: list[dict[str, Any]]) -> dict[str, Any]:
             "id": _text(c.get("id") or c.get("name")) or "—",
             "vin": format_quantity(_number(c.get("vin")), "V"),
             "load": format_quantity(load_num, "%") if load_num is not None else (_text(load) or "—"),
-            "t_amb": format_quantity(_number(c.get("t_amb_c")), "degC"),
+            "t_amb": format_quantity(_number(c.get("t_amb_c", c.get("t_amb"))), "degC"),
+            "worst_for": _text(c.get("worst_for")),
             "mode": _text(c.get("mode")) or "—",
             "duty": format_quantity(_number(c.get("duty", c.get("d"))), "%"),
             "fs": format_quantity(freq, "Hz"),
             "cells": cells,
         })
     return {"headings": [w[2] for w in present], "rows": rows,
-            "has_t_amb": any(_number(c.get("t_amb_c")) is not None for c in corners)}
+            "has_t_amb": any(_number(c.get("t_amb_c", c.get("t_amb"))) is not None for c in corners),
+            "has_worst_for": any(c.get("worst_for") for c in corners)}
 
 
 # --------------------------------------------------------------------------------------------
@@ -327,18 +350,19 @@ def corner_table(corners: list[dict[str, Any]]) -> dict[str, Any]:
 # --------------------------------------------------------------------------------------------
 
 _RULE_SHOWN = {"id", "rule", "name", "category", "subtype", "dielectric", "parameter", "source", "recalled",
-               "warn_band", "warn_from", "limit", "limit_text", "description"}
+               "warn_band", "warn_from", "warn", "limit", "limit_text", "description", "applies_to", "confidence"}
 
 
 def rule_view(rule: dict[str, Any]) -> dict[str, str]:
-    applies = " / ".join(_text(rule.get(k)) for k in ("category", "subtype", "dielectric") if rule.get(k))
+    applies = _text(rule.get("applies_to")) or " / ".join(
+        _text(rule.get(k)) for k in ("category", "subtype", "dielectric") if rule.get(k))
     limit = rule.get("limit_text") or rule.get("description") or rule.get("limit")
     extra = {k: v for k, v in rule.items() if k not in _RULE_SHOWN}
     limit_text = _text(limit) if limit is not None else ""
     if extra:
         limit_text = "; ".join(x for x in (limit_text, _text(extra)) if x)
     band = _number(rule.get("warn_band"))
-    warn_from = _number(rule.get("warn_from"))
+    warn_from = _fraction(rule.get("warn_from", rule.get("warn")))
     if band is not None and band <= 0.0:
         warn = "no warn band"
     elif band is not None:
@@ -348,6 +372,8 @@ def rule_view(rule: dict[str, Any]) -> dict[str, str]:
     else:
         warn = "—"
     recalled = rule.get("recalled")
+    if not recalled and rule.get("confidence"):
+        recalled = rule.get("confidence")
     return {
         "id": _rule_id(rule) or "—",
         "applies": applies or "—",
@@ -437,6 +463,10 @@ def figures(result: CheckResult, parts: list[dict[str, Any]], part_warn: dict[in
             })
         banks.append({"name": str(name), "corner": _text(bank.get("corner")) or "—",
                       "harmonics": _text(bank.get("harmonics")),
+                      "captured": format_quantity(_number(bank.get("captured")), "%")
+                      if _number(bank.get("captured")) is not None else "",
+                      "v_pp": format_quantity(_number(bank.get("v_pp")), "V") if _number(bank.get("v_pp")) is not None
+                      else "",
                       "total": format_quantity(math.sqrt(total_sq), "A") if total_sq > 0 else "—",
                       "svg": Markup(plots.bank_split_chart(str(name), {**bank, "caps": caps})), "caps": table})
     return {
@@ -512,7 +542,7 @@ def build_view(result: CheckResult) -> dict[str, Any]:
         "n_parts": len(parts),
         "n_bom_lines": len(result.bom_lines),
         "unmatched_lines": [{"line": _text(l.get("line") or l.get("bom_line")), "refs": _text(l.get("refs")),
-                             "text": _text(l.get("description") or l.get("value") or l.get("part_number")),
+                             "text": _text(l.get("text") or l.get("description") or l.get("value") or l.get("part_number")),
                              "reason": _text(l.get("reason"))} for l in unmatched_lines],
         "caution": str(result.caution),
         "attention": [f for f in finding_views if f["status"] in ATTENTION or f["css"] == "unknown"],

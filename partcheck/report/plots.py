@@ -39,6 +39,8 @@ STATUS_FILL: dict[str, str] = {
     "waived": "url(#pc-waived)",
     "not_assessed": "url(#pc-none)",
     "unmatched": "url(#pc-none)",
+    "not_fitted": "url(#pc-none)",
+    "unlimited": "url(#pc-none)",
 }
 
 #: Status words and symbols: every status shows both, never colour alone.
@@ -49,6 +51,8 @@ STATUS_LABELS: dict[str, str] = {
     "warn": "WARN",
     "waived": "WAIVED",
     "pass": "PASS",
+    "not_fitted": "NOT FITTED",
+    "unlimited": "NO LIMIT",
 }
 STATUS_SYMBOLS: dict[str, str] = {
     "fail": "✖",
@@ -57,6 +61,8 @@ STATUS_SYMBOLS: dict[str, str] = {
     "warn": "▲",
     "waived": "◇",
     "pass": "✔",
+    "not_fitted": "–",
+    "unlimited": "·",
 }
 
 INK = "#1d2733"

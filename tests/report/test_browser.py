@@ -130,3 +130,21 @@ def test_hostile_text_with_the_csp_in_place(devtools, hostile_result, tmp_path):
     assert devtools.console_errors(events) == []
     assert devtools.dialogs_in(events) == []
     assert devtools.evaluate("document.documentElement.getAttribute('data-pwned')") is None
+
+
+def test_the_demo_report_in_the_browser(devtools, chromium, browser_tools, tmp_path):
+    """The bundled failing demo scenario, checked end to end, opened headless like the others."""
+    from partcheck.demo import run_demo
+
+    (run,) = run_demo(tmp_path / "demo", ("battery_monitor_48v",))
+    assert run.result.verdict == "fail"
+    events = devtools.open(run.report.as_uri())
+    assert devtools.requests_in(events) == [run.report.as_uri()]
+    assert devtools.console_errors(events) == []
+    assert devtools.evaluate("document.querySelector('[data-verdict]').dataset.verdict") == "fail"
+    assert "FAIL" in devtools.evaluate("document.querySelector('.verdict').innerText")
+    png = tmp_path / "demo.png"
+    browser_tools.run_chromium(chromium, tmp_path / "profile", f"--screenshot={png}", "--window-size=1280,2000",
+                               run.report.as_uri())
+    pixels = browser_tools.read_png(png)[:, :, :3].astype(int).sum(axis=2)
+    assert (pixels < 3 * 245).mean() > 0.03, "the demo report's screenshot is blank"

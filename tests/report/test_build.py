@@ -120,3 +120,38 @@ def test_parts_sorted_and_utilisation_chart_limited():
     assert (figures["utilisation_shown"], figures["utilisation_total"]) == (40, 61)
     chart = str(figures["utilisation"])
     assert "R99 RES-99" in chart and "R60 RES-60" in chart and "R22 RES-22" in chart and "R21 RES-21" not in chart
+
+
+def test_the_shapes_the_check_writes_are_read():
+    """Keys as the pipeline writes them: ``fsw``/``t_amb``/``worst_for`` on corners, ``applies_to``,
+    ``warn`` (as text) and ``confidence`` on rules, ``text`` on BOM lines, ``not_fitted`` parts."""
+    result = CheckResult(
+        design="d", policy="p", policy_origin="design", verdict="fail",
+        findings=[{"refs": ["D1"], "part_number": "DU-050", "parameter": "voltage", "unit": "V", "stress": 45.0,
+                   "rating": 50.0, "limit": 40.0, "utilization": 1.125, "margin": -0.125, "corner": "vin_max-full",
+                   "status": "fail", "rule": "diode-voltage", "source": "common practice", "confidence": "read",
+                   "detail": "", "waiver": None, "alternatives": []}],
+        parts=[{"refs": ["D1"], "part_number": "DU-050", "status": "fail", "worst_utilization": 1.125,
+                "worst_parameter": "voltage", "match": {"method": "exact", "score": 100.0}},
+               {"refs": ["R9"], "part_number": None, "status": "not_fitted", "worst_utilization": None}],
+        bom_lines=[{"line": 9, "refs": ["X1"], "text": "mystery part", "status": "unmatched", "reason": "no match"}],
+        corners=[{"id": "vin_max-full", "vin": 60.0, "load": "full", "mode": "CCM", "duty": 0.35, "fsw": 2e5,
+                  "t_amb": 60.0, "roles": {"rectifier": {"i_peak": 1.2}}, "worst_for": ["rectifier.v_reverse"]}],
+        policy_rules=[{"id": "diode-voltage", "applies_to": "diode", "parameter": "voltage", "limit": "≤ 0.8 × vrrm",
+                       "warn": "0.9", "source": "common practice", "confidence": "common practice"}],
+        waivers=[{"ref": "C3", "parameter": "life", "reason": "r", "approved_by": "a", "date": "2026-01-01",
+                  "expires": None}],
+    )
+    view = build_view(result)
+    row = view["corners"]["rows"][0]
+    assert (row["fs"], row["t_amb"], row["worst_for"]) == ("200 kHz", "60 °C", "rectifier.v_reverse")
+    rule = view["policy_rules"][0]
+    assert (rule["applies"], rule["limit"], rule["warn"], rule["recalled"]) == (
+        "diode", "≤ 0.8 × vrrm", "from 90 % of limit", "common practice")
+    finding = view["attention"][0]
+    assert (finding["warn_from"], finding["confidence"]) == ("90 %", "read")
+    assert [(p["refs"], p["label"], p["css"]) for p in view["parts"]] == [("D1", "FAIL", "fail"),
+                                                                        ("R9", "NOT FITTED", "quiet")]
+    assert view["parts"][0]["match"] == "exact (100)"
+    assert view["unmatched_lines"] == [{"line": "9", "refs": "X1", "text": "mystery part", "reason": "no match"}]
+    assert view["waivers"][0]["refs"] == "C3" and view["waivers"][0]["expires"] == "no expiry"

@@ -184,7 +184,7 @@ def test_sections_and_contents(html):
         assert f'<section id="{section}"' in html, section
     assert "Operating point at each corner" in html
     assert "CCM" in html and "DCM" in html and "250 kHz" in html and "50.8 %" in html
-    assert html.count("<tr><td class=\"mono\">vin_") == 7
+    assert html.count("<tr><td class=\"mono nw\">vin_") == 7
     assert "a77de8a6daa1129516b14c8ca1e233a51a8414b202eac7c8acfbb9b485046ad4" in html  # design SHA-256
     assert "partcheck check sample_boms/gate-drive-sic/design.toml --bom" in html
     assert "Supply is powered only while the inverter runs" in html
