@@ -15,8 +15,8 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from partcheck.catalog import open_catalog  # noqa: E402
-from partcheck.catalog.models import FIELDS  # noqa: E402
+from partcheck.catalog import open_catalog
+from partcheck.catalog.models import FIELDS
 
 BULK_ROWS = 100_000
 ORM_ROWS = 5_000
@@ -87,8 +87,8 @@ def run() -> list[tuple[str, str]]:
         (f"bulk import, {BULK_ROWS:,} rows (read + parse + validate + Core executemany, one transaction)",
          f"{bulk_rate:,.0f} rows/s ({bulk_s:.2f} s wall; {BULK_ROWS / bulk_cpu:,.0f} rows/s by CPU time)"),
         (f"ORM row-by-row import, {ORM_ROWS:,}-row subset (same read + validate, one flush per row)",
-         f"{orm_rate:,.0f} rows/s ({orm_s:.2f} s wall, ~{BULK_ROWS / orm_rate:.0f} s scaled to {BULK_ROWS:,} rows; "
-         f"{ORM_ROWS / orm_cpu:,.0f} rows/s by CPU time)"),
+         (f"{orm_rate:,.0f} rows/s ({orm_s:.2f} s wall, ~{BULK_ROWS / orm_rate:.0f} s scaled to {BULK_ROWS:,} rows; "
+          f"{ORM_ROWS / orm_cpu:,.0f} rows/s by CPU time)")),
         ("bulk / ORM speed ratio (wall)", f"{bulk_rate / orm_rate:.1f}x"),
         (f"Catalog.parts() bulk read, {BULK_ROWS:,} parts with curves", f"{read_s:.2f} s wall ({read_cpu:.2f} s CPU)"),
     ]

@@ -48,7 +48,7 @@ def main(argv: list[str]) -> int:
         t0 = time.perf_counter()
         try:
             figures = _load(path).run()
-        except Exception as exc:  # one broken benchmark must not hide the others' figures
+        except Exception as exc:  # noqa: BLE001 - one broken benchmark must not hide the others' figures
             traceback.print_exc()
             figures = [("FAILED", f"{type(exc).__name__}: {exc}")]
             failed = True

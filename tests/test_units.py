@@ -113,12 +113,12 @@ REJECT = [
     ("4R7", "F", "'4R7' is not a capacitance (F) (the R code is for resistances)"),
     ("300 K", "degC", "'300 K' is not a temperature (°C) (temperatures are written in °C here, not kelvin)"),
     ("5 kdegC", "degC", "'5 kdegC' is not a temperature (°C) (no SI prefix is used with a temperature (°C))"),
-    ("5 mK", "K", "'5 mK' is not a temperature difference (K) (no SI prefix is used with a temperature "
-                  "difference (K))"),
+    ("5 mK", "K", ("'5 mK' is not a temperature difference (K) (no SI prefix is used with a temperature "
+                   "difference (K))")),
     ("1.0.0", "V", "'1.0.0' is not a voltage (V) (unexpected '.0' after the number)"),
     ("", "V", "'' is not a voltage (V) (the text is empty)"),
-    ("abc", "V", "'abc' is not a voltage (V) (expected a number with an optional SI prefix and unit V/v, "
-                 "such as 4.7k or 22 mV)"),
+    ("abc", "V", ("'abc' is not a voltage (V) (expected a number with an optional SI prefix and unit V/v, "
+                  "such as 4.7k or 22 mV)")),
     ("1e400", "V", "'1e400' is not a voltage (V) (the value must be finite)"),
     ("fast", None, "'fast' is not a plain number (expected a number such as 0.85 or 1e-3)"),
 ]

@@ -21,10 +21,11 @@ import io
 import json
 import math
 import re
+from collections.abc import Iterable
 from dataclasses import dataclass
 from itertools import compress
 from pathlib import Path
-from typing import IO, Iterable
+from typing import IO
 
 from ..errors import CatalogInputError, QuantityError
 from ..units import format_quantity, parse_quantity
@@ -219,7 +220,7 @@ def _read_xlsx(path: Path, sheet: str | None = None) -> Table | None:
         book = load_workbook(path, read_only=True, data_only=True)
     except FileNotFoundError:
         raise CatalogInputError("file not found", file=path) from None
-    except Exception as exc:  # openpyxl raises many kinds for a file that is not a workbook
+    except Exception as exc:  # noqa: BLE001 - openpyxl raises many kinds for a file that is not a workbook
         raise CatalogInputError(f"is not a readable .xlsx workbook ({exc})", file=path) from None
     try:
         if sheet is not None:

@@ -13,11 +13,12 @@ table, give version 1 a frozen copy of the original table definitions instead of
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass
-from datetime import datetime, timezone
-from typing import Callable, Final
+from datetime import UTC, datetime
+from typing import Final
 
-from sqlalchemy import Connection, inspect, insert, select, update
+from sqlalchemy import Connection, insert, inspect, select, update
 
 from .. import __version__
 from ..errors import CatalogError
@@ -97,7 +98,7 @@ def migrate(conn: Connection, current: int | None) -> list[Migration]:
         migration.apply(conn)
         conn.execute(insert(MIGRATION).values(
             version=migration.version, name=migration.name,
-            applied_at=datetime.now(timezone.utc).isoformat(timespec="seconds")))
+            applied_at=datetime.now(UTC).isoformat(timespec="seconds")))
         applied.append(migration)
     if applied:
         version = str(applied[-1].version)

@@ -14,8 +14,9 @@ Values are SI floats (°C for temperatures, hours for life, fractions for percen
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field, fields as dc_fields
-from typing import Final, Optional
+from dataclasses import dataclass, field
+from dataclasses import fields as dc_fields
+from typing import Final
 
 from sqlalchemy import Index, UniqueConstraint
 from sqlmodel import Field, SQLModel
@@ -218,69 +219,69 @@ class Part(SQLModel, table=True):
         Index("ix_part_category_subtype", "category", "subtype"),
     )
 
-    id: Optional[int] = Field(default=None, primary_key=True)
+    id: int | None = Field(default=None, primary_key=True)
     part_number: str = Field(index=True, unique=True)
     category: str = Field(index=True)
-    subtype: Optional[str] = Field(default=None, index=True)
-    description: Optional[str] = None
-    package: Optional[str] = None
-    notes: Optional[str] = None
-    status: Optional[str] = None
-    vds_max: Optional[float] = None
-    id_max: Optional[float] = None
-    id_pulse: Optional[float] = None
-    rds_on: Optional[float] = None
-    rds_on_125: Optional[float] = None
-    coss: Optional[float] = None
-    qg: Optional[float] = None
-    vrrm: Optional[float] = None
-    if_avg: Optional[float] = None
-    ifsm: Optional[float] = None
-    vf: Optional[float] = None
-    vf_current: Optional[float] = None
-    trr: Optional[float] = None
-    qrr: Optional[float] = None
-    cj: Optional[float] = None
-    v_breakdown: Optional[float] = None
-    v_clamp: Optional[float] = None
-    p_max: Optional[float] = None
-    p_pulse: Optional[float] = None
-    capacitance: Optional[float] = None
-    tolerance: Optional[float] = None
-    v_rated: Optional[float] = None
-    dielectric: Optional[str] = None
-    esr: Optional[float] = None
-    esl: Optional[float] = None
-    ripple_current: Optional[float] = None
-    ripple_freq: Optional[float] = None
-    ripple_temp: Optional[float] = None
-    ripple_rise: Optional[float] = None
-    life_hours: Optional[float] = None
-    life_temp: Optional[float] = None
-    case_size: Optional[str] = None
-    resistance: Optional[float] = None
-    p_rated: Optional[float] = None
-    t_knee: Optional[float] = None
-    v_max: Optional[float] = None
-    lm: Optional[float] = None
-    turns_ratio: Optional[float] = None
-    llk: Optional[float] = None
-    isat: Optional[float] = None
-    dcr_pri: Optional[float] = None
-    dcr_sec: Optional[float] = None
-    v_isolation: Optional[float] = None
-    ctr_min: Optional[float] = None
-    ctr_max: Optional[float] = None
-    if_max: Optional[float] = None
-    vceo: Optional[float] = None
-    ic_max: Optional[float] = None
-    v_ref: Optional[float] = None
-    vka_max: Optional[float] = None
-    ika_max: Optional[float] = None
-    ika_min: Optional[float] = None
-    tj_max: Optional[float] = None
-    rth_ja: Optional[float] = None
-    t_max: Optional[float] = None
+    subtype: str | None = Field(default=None, index=True)
+    description: str | None = None
+    package: str | None = None
+    notes: str | None = None
+    status: str | None = None
+    vds_max: float | None = None
+    id_max: float | None = None
+    id_pulse: float | None = None
+    rds_on: float | None = None
+    rds_on_125: float | None = None
+    coss: float | None = None
+    qg: float | None = None
+    vrrm: float | None = None
+    if_avg: float | None = None
+    ifsm: float | None = None
+    vf: float | None = None
+    vf_current: float | None = None
+    trr: float | None = None
+    qrr: float | None = None
+    cj: float | None = None
+    v_breakdown: float | None = None
+    v_clamp: float | None = None
+    p_max: float | None = None
+    p_pulse: float | None = None
+    capacitance: float | None = None
+    tolerance: float | None = None
+    v_rated: float | None = None
+    dielectric: str | None = None
+    esr: float | None = None
+    esl: float | None = None
+    ripple_current: float | None = None
+    ripple_freq: float | None = None
+    ripple_temp: float | None = None
+    ripple_rise: float | None = None
+    life_hours: float | None = None
+    life_temp: float | None = None
+    case_size: str | None = None
+    resistance: float | None = None
+    p_rated: float | None = None
+    t_knee: float | None = None
+    v_max: float | None = None
+    lm: float | None = None
+    turns_ratio: float | None = None
+    llk: float | None = None
+    isat: float | None = None
+    dcr_pri: float | None = None
+    dcr_sec: float | None = None
+    v_isolation: float | None = None
+    ctr_min: float | None = None
+    ctr_max: float | None = None
+    if_max: float | None = None
+    vceo: float | None = None
+    ic_max: float | None = None
+    v_ref: float | None = None
+    vka_max: float | None = None
+    ika_max: float | None = None
+    ika_min: float | None = None
+    tj_max: float | None = None
+    rth_ja: float | None = None
+    t_max: float | None = None
 
 
 class CurvePoint(SQLModel, table=True):
@@ -289,7 +290,7 @@ class CurvePoint(SQLModel, table=True):
     __tablename__ = "curve_point"
     __table_args__ = (UniqueConstraint("part_id", "curve", "seq", name="uq_curve_point"),)
 
-    id: Optional[int] = Field(default=None, primary_key=True)
+    id: int | None = Field(default=None, primary_key=True)
     part_id: int = Field(foreign_key="part.id", ondelete="CASCADE", index=True)
     curve: str
     seq: int
@@ -422,7 +423,7 @@ class PartRecord:
         return {name: getattr(self, name) for name in FIELDS}
 
     @classmethod
-    def _fast(cls, values: dict, curves: dict[str, Curve] | None = None) -> "PartRecord":
+    def _fast(cls, values: dict, curves: dict[str, Curve] | None = None) -> PartRecord:
         """Build a record from a complete column mapping without the per-field ``__init__`` cost.
 
         Used by bulk reads (100,000 parts); ``values`` must hold every column of :data:`FIELDS`.

@@ -16,11 +16,12 @@ import hashlib
 import io
 import os
 from collections import defaultdict
+from collections.abc import Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass
 from operator import itemgetter
 from pathlib import Path
-from typing import IO, Iterator, Literal
+from typing import IO, Literal, Self
 
 from sqlalchemy import Engine, bindparam, create_engine, delete, event, func, insert, select, update
 from sqlalchemy.engine import URL, make_url
@@ -80,7 +81,7 @@ class ExportReport:
     curves_skipped: int = 0
 
 
-def open_catalog(url: str | os.PathLike[str] | None = None, *, create: bool = True) -> "Catalog":
+def open_catalog(url: str | os.PathLike[str] | None = None, *, create: bool = True) -> Catalog:
     """Open (and with ``create`` make) the catalog at ``url``; see the module docstring for defaults.
 
     Raises :class:`CatalogError` when the target is not a catalog, holds a newer schema version,
@@ -155,7 +156,7 @@ class Catalog:
 
     # ---- plumbing --------------------------------------------------------------------------
 
-    def __enter__(self) -> "Catalog":
+    def __enter__(self) -> Self:
         return self
 
     def __exit__(self, *exc) -> None:
@@ -496,4 +497,4 @@ def _write_atomic(path: Path, text: str) -> None:
 
 
 # Curve type re-exported for callers that annotate with it.
-__all__ = ["Catalog", "ExportReport", "ImportReport", "open_catalog", "default_location", "Curve", "BUSY_TIMEOUT_S"]
+__all__ = ["BUSY_TIMEOUT_S", "Catalog", "Curve", "ExportReport", "ImportReport", "default_location", "open_catalog"]

@@ -207,8 +207,8 @@ def test_bad_curve_file_is_reported_in_its_own_file(small_copy, db_path):
         (f, 4, "x", "'5 A' is not a voltage (V) (the unit says a current (A))"),
         (f, 5, "curve", "a dc_bias curve is for capacitor, not for switch 'TST-SW-150V-8A'"),
         (f, 6, "part_number", "part 'NOPE' is not among the parts of this import"),
-        (f, 7, "curve", "unknown curve 'ripple_frq'; did you mean 'ripple_freq'? expected one of dc_bias, "
-                        "ripple_freq, ripple_temp, power_derating"),
+        (f, 7, "curve", ("unknown curve 'ripple_frq'; did you mean 'ripple_freq'? expected one of dc_bias, "
+                         "ripple_freq, ripple_temp, power_derating")),
         (f, 8, "y", "'-1' is not allowed: y is a multiplier or fraction and cannot be negative"),
     ]
     assert str(info.value).startswith(f"{small_copy}: 6 problems, nothing was imported:\n  {f}, line 3, column 'x'")

@@ -42,7 +42,9 @@ def test_export_layout(tmp_path, catalog):
     assert lines[0] == ",".join(FIELDS)
     numbers = [line.split(",", 1)[0] for line in lines[1:]]
     assert numbers == sorted(numbers) and len(numbers) == 12
-    doc = json.loads((lambda s: (catalog.export(s, "json"), s.getvalue())[1])(io.StringIO()))
+    stream = io.StringIO()
+    catalog.export(stream, "json")
+    doc = json.loads(stream.getvalue())
     assert doc["format"] == "partcheck-catalog" and doc["schema_version"] == 1
     first = doc["parts"][0]
     assert first["part_number"] == "TST-C-10U-25V"

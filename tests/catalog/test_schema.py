@@ -33,10 +33,9 @@ def test_tables_indexes_and_version_are_stored(db_path):
 
 
 def test_connection_settings(db_path):
-    with open_catalog(db_path) as cat:
-        with cat._engine.connect() as conn:
-            assert conn.exec_driver_sql("pragma busy_timeout").scalar() == 10000
-            assert conn.exec_driver_sql("pragma foreign_keys").scalar() == 1
+    with open_catalog(db_path) as cat, cat._engine.connect() as conn:
+        assert conn.exec_driver_sql("pragma busy_timeout").scalar() == 10000
+        assert conn.exec_driver_sql("pragma foreign_keys").scalar() == 1
 
 
 def test_part_table_record_and_registry_agree():
