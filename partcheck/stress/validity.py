@@ -107,6 +107,11 @@ def check(design: Design, corners: list[CornerSpec], op: OperatingPoints,
                 f"{format_quantity(sol['ipk'][i], 'A')} at {ids[i]}: the converter cannot deliver full load; "
                 "expected a current limit above the full-load peak", file=file, key="converter.current_limit")
 
+    short_eta = sol["pin"] < (sol["psec"] + sol["p_clamp"]) * (1 - 1e-6)
+    for i in np.nonzero(short_eta)[0]:
+        notes.append(f"{ids[i]}: the efficiency {conv.efficiency:g} leaves less input power than the rectified "
+                     f"output plus the computed clamp loss {format_quantity(sol['p_clamp'][i], 'W')} need; the primary "
+                     "currents (from the efficiency) are then lower than the secondary ones imply")
     for i in np.nonzero(sol["fs_clamped"])[0]:
         notes.append(f"{ids[i]}: the boundary-mode frequency would exceed the maximum "
                      f"{format_quantity(conv.fsw, 'Hz')}; the converter runs clamped at it in DCM, computed that way")
