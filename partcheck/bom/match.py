@@ -65,7 +65,7 @@ SPECS: Final[dict[str, tuple[tuple[str, str, str, str], ...]]] = {
     "switch": (("v_rated", "vds_max", "min", "V"), ("i_rated", "id_max", "min", "A")),
     "clamp": (("v_rated", "v_breakdown", "near", "V"), ("p_rated", "p_max", "min", "W")),
     "optocoupler": (("v_rated", "vceo", "min", "V"),),
-    "reference": (("v_rated", "vka_max", "min", "V"),),
+    "reference": (("v_rated", "v_ref", "near", "V"),),
 }
 CATEGORIES: Final = tuple(SPECS)
 #: Categories in which a stated subtype (ceramic vs electrolytic, schottky vs ultrafast) must agree.
