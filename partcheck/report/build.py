@@ -217,7 +217,8 @@ def finding_view(finding: dict[str, Any], rules: dict[str, dict[str, Any]],
         "corner": _text(finding.get("corner")) or "—",
         "rule": _text(finding.get("rule")) or "—",
         "source": _text(finding.get("source")) or "—",
-        "confidence": _text(finding.get("confidence")),
+        "confidence": "" if _text(finding.get("confidence")) in _text(finding.get("source"))
+        else _text(finding.get("confidence")),
         "detail": _text(finding.get("detail")),
         "waiver": waiver_view(waiver) if isinstance(waiver, dict) else None,
         "alternatives": alternatives,
@@ -372,7 +373,7 @@ def rule_view(rule: dict[str, Any]) -> dict[str, str]:
     else:
         warn = "—"
     recalled = rule.get("recalled")
-    if not recalled and rule.get("confidence"):
+    if not recalled and rule.get("confidence") and _text(rule["confidence"]) not in _text(rule.get("source")):
         recalled = rule.get("confidence")
     return {
         "id": _rule_id(rule) or "—",
@@ -535,6 +536,8 @@ def build_view(result: CheckResult) -> dict[str, Any]:
         "verdict_symbol": STATUS_SYMBOLS["pass"] if verdict == "pass" else STATUS_SYMBOLS["fail"],
         "verdict_css": "pass" if verdict == "pass" else "fail",
         "verdict_reasons": ", ".join(reasons),
+        "verdict_note": (f"{counts.get('warn', 0)} finding{'s' if counts.get('warn', 0) != 1 else ''} in the warn band"
+                         if counts.get("warn", 0) else ""),
         "failing": failing,
         "counts": [{**status_view(s), "n": counts.get(s, 0)} for s in STATUS_ORDER]
         + [{**status_view(s), "n": n} for s, n in counts.items() if s not in STATUS_ORDER],

@@ -147,7 +147,7 @@ def test_the_shapes_the_check_writes_are_read():
     assert (row["fs"], row["t_amb"], row["worst_for"]) == ("200 kHz", "60 °C", "rectifier.v_reverse")
     rule = view["policy_rules"][0]
     assert (rule["applies"], rule["limit"], rule["warn"], rule["recalled"]) == (
-        "diode", "≤ 0.8 × vrrm", "from 90 % of limit", "common practice")
+        "diode", "≤ 0.8 × vrrm", "from 90 % of limit", "")  # "common practice" is already the source
     finding = view["attention"][0]
     assert (finding["warn_from"], finding["confidence"]) == ("90 %", "read")
     assert [(p["refs"], p["label"], p["css"]) for p in view["parts"]] == [("D1", "FAIL", "fail"),

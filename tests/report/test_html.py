@@ -82,8 +82,10 @@ def test_passing_verdict(sample_result):
     sample_result.findings = [f for f in sample_result.findings if f["status"] in ("pass", "waived")]
     html = render_html(sample_result)
     assert 'data-verdict="pass"' in html
-    assert "✔</span> PASS" in html and "every part meets the policy" in html
+    assert "✔</span> PASS" in html and "every part meets the policy<" in html
     assert "None: every finding passes or is waived." in html
+    sample_result.findings[0]["status"] = "warn"
+    assert "every part meets the policy; 1 finding in the warn band<" in render_html(sample_result)
 
 
 def test_failing_findings_come_before_passing_ones(html):
