@@ -386,9 +386,8 @@ def _header(table: Table, valid: Iterable[str], problems: list[Problem]) -> list
     seen: dict[str, int] = {}
     for position, raw in enumerate(table.header):
         name = str(raw).strip().lower()
-        if name == "":
+        if name == "":  # a trailing empty column from a spreadsheet: fine unless it holds data
             names.append(None)
-            problems.append(Problem(f"column {position + 1} has no name in the header", table.header_line))
             continue
         if name not in valid:
             names.append(None)
@@ -441,6 +440,13 @@ def validate(table: Table, curve_table: Table | None = None, *, existing: Iterab
         if len(row) < width:
             rows[i] = list(row) + [None] * (width - len(row))
             padded = True
+    for position, name in enumerate(names):
+        if name is None and not str(table.header[position]).strip():
+            filled = [i for i, row in enumerate(rows) if not _is_empty(row[position])]
+            if filled:
+                line, key = _where(table, filled[0])
+                problems.append(Problem(f"column {position + 1} has no name in the header but holds data",
+                                        line, key=key))
     columns = dict(zip(names, zip(*rows))) if n else {name: () for name in names}
     out: dict[str, list] = {}
 

@@ -289,3 +289,18 @@ def test_add_validates_like_import(catalog):
     with pytest.raises(CatalogInputError, match="'A1' is already in the catalog"):
         catalog.add({"part_number": "A1", "category": "capacitor"})
     assert catalog.add({"part_number": "A1", "category": "capacitor", "v_rated": "25"}, update=True).v_rated == 25.0
+
+
+def test_unnamed_empty_columns_are_ignored_but_not_their_data(tmp_path, catalog):
+    ok = csv_file(tmp_path, "R1,resistor,,\nR2,resistor,,\n", head="part_number,category,,\n")
+    assert catalog.import_file(ok).added == 2
+    bad = csv_file(tmp_path, "R3,resistor,,\nR4,resistor,,4k7\n", name="bad.csv", head="part_number,category,,\n")
+    with pytest.raises(CatalogInputError) as info:
+        catalog.import_file(bad)
+    assert str(info.value) == (f"{bad}, line 3: column 4 has no name in the header but holds data; "
+                               "nothing was imported")
+    long_row = csv_file(tmp_path, "R5,resistor,1k,extra\n", name="long.csv", head="part_number,category,resistance\n")
+    with pytest.raises(CatalogInputError) as info:
+        catalog.import_file(long_row)
+    assert str(info.value) == f"{long_row}, line 2: the row has 4 cells, the header has 3; nothing was imported"
+    assert catalog.count() == 14
