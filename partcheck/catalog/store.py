@@ -441,7 +441,11 @@ class Catalog:
         """
         is_path = isinstance(target, (str, os.PathLike))
         if fmt is None:
-            fmt = "json" if is_path and Path(target).suffix.lower() == ".json" else "csv"  # type: ignore[arg-type]
+            suffix = Path(target).suffix.lower() if is_path else ".csv"  # type: ignore[arg-type]
+            if suffix not in (".csv", ".json"):
+                raise CatalogInputError(f"cannot tell the export format from {suffix or 'a name without extension'!r}; "
+                                        "name the file .csv or .json, or give the format", file=str(target))
+            fmt = suffix[1:]
         if fmt not in ("csv", "json"):
             raise CatalogInputError(f"unknown export format {fmt!r}; expected csv or json", key="format")
         records = self.parts()

@@ -6,8 +6,11 @@ import io
 import json
 import random
 
+import pytest
+
 from partcheck.catalog import open_catalog
 from partcheck.catalog.models import CATEGORY_FIELDS, FIELDS
+from partcheck.errors import CatalogInputError
 
 
 def _export_all(cat, folder):
@@ -88,3 +91,17 @@ def test_snapshot_hash_changes_with_any_value(catalog):
                  "id_max": "8 A", "rds_on": "45m", "qg": "18 nC", "tj_max": "150", "rth_ja": "62.000001",
                  "description": "test switch 150 V 8 A", "package": "TO-220"}, update=True)
     assert catalog.snapshot_hash() != before
+
+
+def test_export_format_from_the_file_name(tmp_path, catalog):
+    catalog.export(tmp_path / "a.json")
+    assert (tmp_path / "a.json").read_text(encoding="utf-8").startswith('{\n  "format": "partcheck-catalog"')
+    catalog.export(tmp_path / "b.txt", "csv")
+    assert (tmp_path / "b.curves.txt").exists()
+    with pytest.raises(CatalogInputError) as info:
+        catalog.export(tmp_path / "c.xlsx")
+    assert str(info.value) == (f"{tmp_path / 'c.xlsx'}: cannot tell the export format from '.xlsx'; "
+                               "name the file .csv or .json, or give the format")
+    with pytest.raises(CatalogInputError, match="unknown export format 'xml'; expected csv or json"):
+        catalog.export(tmp_path / "d.csv", "xml")
+    assert not (tmp_path / "c.xlsx").exists() and not (tmp_path / "d.csv").exists()
