@@ -35,7 +35,7 @@ from rapidfuzz import fuzz, process
 from ..errors import BomError
 from ..units import format_quantity
 from .read import Bom, BomLine, read_bom
-from .values import dielectric_key, package_key, quantity_token
+from .values import PRIMARY, dielectric_key, package_key, quantity_token
 
 DEFAULT_THRESHOLD: Final = 70.0
 DEFAULT_AMBIGUITY_GAP: Final = 3.0
@@ -323,6 +323,13 @@ class Matcher:
             wanted = " or ".join(line.categories) if line.categories else "any"
             return LineMatch(status="unmatched", part_number=None, score=0.0, method=None,
                              reason=note + f"the catalog holds no {wanted} parts", **base)
+        primary = PRIMARY.get(cats[0]) if len(cats) == 1 else None
+        if primary and primary[0] not in line.values and line.value_text.strip():
+            return LineMatch(status="unmatched", part_number=None, score=0.0, method=None,
+                             reason=note + f"the value {line.value_text.strip()!r} could not be read as a "
+                                           f"{primary[0]}, so no {_CATEGORY_NAMES[cats[0]]} can be chosen by "
+                                           "value; correct the cell, add a part number or pin the reference",
+                             **base)
         query = _query_text(line)
         scored: list[tuple[float, float, str, int]] = []  # (score, text score, category, part index)
         for cat in cats:
@@ -687,9 +694,9 @@ def parse_pins(items: Iterable[str] | None) -> dict[str, str]:
 
 def match_bom_file(path: str | PathLike[str], *, db: str | None = None, catalog: Any = None,
                    pins: dict[str, str] | None = None, columns: dict[str, str] | None = None,
-                   sheet: str | None = None) -> MatchReport:
+                   sheet: str | None = None, decimal_comma: bool | None = None) -> MatchReport:
     """Read a BOM file and match it against a catalog (``catalog`` object, or opened from ``db``)."""
-    bom = read_bom(path, sheet=sheet, columns=columns)
+    bom = read_bom(path, sheet=sheet, columns=columns, decimal_comma=decimal_comma)
     if catalog is None:
         from ..catalog.store import open_catalog
 

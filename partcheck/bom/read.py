@@ -297,15 +297,20 @@ def _find_header(grid, overrides, path) -> tuple[int, dict[str, int]]:
     return best_i, best_map
 
 
-def _detect_decimal_comma(rows, mapping) -> bool:
+def _detect_decimal_comma(rows, mapping) -> str | None:
+    """The first cell written with a decimal comma ("4,7µF", "0,47"), when such cells outnumber decimal points."""
     cols = [mapping[f] for f in ("value", "voltage", "tolerance", "description") if f in mapping]
     comma = point = 0
+    example = None
     for _line, cells in rows:
         for c in cols:
             if c < len(cells):
-                comma += len(re.findall(r"(?<![\d,.])\d+,\d+(?![\d,.])", cells[c]))
+                hits = len(re.findall(r"(?<![\d,.])\d+,\d+(?![\d,.])", cells[c]))
+                comma += hits
                 point += len(re.findall(r"(?<![\d,.])\d+\.\d+(?![\d,.])", cells[c]))
-    return comma > 0 and comma >= point
+                if hits and example is None:
+                    example = cells[c].strip()
+    return example if comma > 0 and comma >= point else None
 
 
 def _parse_qty(text: str) -> tuple[int | None, str | None]:
@@ -392,10 +397,11 @@ def read_bom(
     headers = [c.strip() for c in header_cells]
     body = grid[head_i + 1:]
     if decimal_comma is None:
-        decimal_comma = _detect_decimal_comma(body, mapping)
+        example = _detect_decimal_comma(body, mapping)
+        decimal_comma = example is not None
         if decimal_comma:
-            notices.append("read numbers with decimal commas (values such as "
-                           "'4,7µF' were found); force with decimal_comma=False if wrong")
+            notices.append(f"read numbers with decimal commas (cells such as {example!r}); "
+                           "if that is wrong, read the file with --no-decimal-comma")
     column_map = {f: headers[i] for f, i in mapping.items()}
     # pandas keeps the body as a frame of plain strings (no type guessing, no NaN).
     width = max([len(headers)] + [len(c) for _l, c in body])

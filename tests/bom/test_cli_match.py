@@ -83,3 +83,27 @@ def test_bad_format_and_bad_pin(write, catalog_file):
 def test_help_text():
     result = runner.invoke(app, ["match", "--help"])
     assert result.exit_code == 0 and "Match every line of BOM to a catalog part" in result.stdout
+
+
+def test_sheet_and_decimal_comma_options(tmp_path, write, catalog_file):
+    from openpyxl import Workbook
+
+    book = Workbook()
+    book.active.title = "Cover"
+    book.active.append(["nothing to see"])
+    ws = book.create_sheet("Parts")
+    ws.append(["Designator", "Comment", "Footprint"])
+    ws.append(["R1", "4k7 1%", "0603"])
+    path = tmp_path / "bom.xlsx"
+    book.save(path)
+    result = runner.invoke(app, ["match", str(path), "--db", str(catalog_file), "--sheet", "Parts", "--format", "json"])
+    assert result.exit_code == 0, result.output
+    assert json.loads(result.stdout)["lines"][0]["part_number"] == "KR-4K70-0603-1"
+
+    bom = write("bom.csv", "Ref;Value;Footprint\nR1;0,47;2512\n")
+    auto = runner.invoke(app, ["match", str(bom), "--db", str(catalog_file), "--format", "json"])
+    assert json.loads(auto.stdout)["lines"][0]["part_number"] == "KR-0R47-2512-1"
+    forced = runner.invoke(app, ["match", str(bom), "--db", str(catalog_file), "--format", "json",
+                                 "--no-decimal-comma"])
+    assert forced.exit_code == 1
+    assert "a comma is not a decimal point here" in forced.stderr

@@ -212,3 +212,10 @@ def test_annotated_csv_and_xlsx(write, tmp_path):
     assert [[c.value for c in row] for row in ws.iter_rows()] == rows
     with pytest.raises(BomError, match="has 1 values for 2 BOM lines"):
         write_annotated_bom(bom, {"x": [1]}, tmp_path / "bad.csv")
+
+
+def test_unreadable_value_is_not_matched_by_package_alone(write, parts):
+    m = one(write, parts, "R9,1,4k7x,,2512,")
+    assert (m.status, m.part_number) == ("unmatched", None)
+    assert m.reason.startswith("the value '4k7x' could not be read as a resistance")
+    assert any("no resistance could be read" in w for w in m.warnings)
