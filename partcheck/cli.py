@@ -17,6 +17,7 @@ from typing import Annotated, Optional
 import click
 import typer
 from rich.console import Console
+from rich.markup import escape
 from typer.core import TyperGroup
 
 from . import __version__
@@ -33,7 +34,8 @@ class _PartcheckGroup(TyperGroup):
         try:
             return super().invoke(ctx)
         except PartcheckError as exc:
-            err.print(f"[bold red]error:[/] {exc}", markup=True, highlight=False)
+            # escape: messages quote TOML tables such as [converter], which rich would take as markup
+            err.print(f"[bold red]error:[/] {escape(str(exc))}", markup=True, highlight=False)
             raise typer.Exit(exc.exit_code) from None
 
 
@@ -328,6 +330,9 @@ def match_command(
     columns: Annotated[Optional[str], typer.Option("--columns", help="Header overrides, e.g. "
                                                                      "ref=Designator,value=Val.")] = None,
     sheet: Annotated[Optional[str], typer.Option("--sheet", help="XLSX sheet to read (default: the first).")] = None,
+    decimal_comma: Annotated[Optional[bool], typer.Option("--decimal-comma/--no-decimal-comma",
+                                                          help="Force or forbid decimal commas (default: "
+                                                               "detected).")] = None,
 ) -> None:
     """Match every line of BOM to a catalog part and say how sure each match is.
 
@@ -348,7 +353,8 @@ def match_command(
 
     if format not in ("table", "json", "csv"):
         raise typer.BadParameter(f"{format!r} is not a format; expected table, json or csv", param_hint="--format")
-    report = match_bom_file(bom, db=db, pins=parse_pins(pin), columns=parse_column_overrides(columns), sheet=sheet)
+    report = match_bom_file(bom, db=db, pins=parse_pins(pin), columns=parse_column_overrides(columns), sheet=sheet,
+                            decimal_comma=decimal_comma)
     if format == "json":
         sys.stdout.write(_json.dumps(report.to_dict(), indent=2, ensure_ascii=False) + "\n")
     elif format == "csv":
