@@ -230,3 +230,22 @@ def test_missing_file(tmp_path):
 def test_sheet_on_a_text_file(write):
     with pytest.raises(BomError, match="--sheet 'A' was given but this is a text table"):
         read_bom(write("bom.csv", TIDY), sheet="A")
+
+
+def test_xlsx_rows_are_spreadsheet_rows_even_with_leading_gaps(tmp_path):
+    book = Workbook()
+    ws = book.active
+    ws["B3"], ws["C3"] = "Ref", "Value"
+    ws["B4"], ws["C4"] = "C1", "1uF"
+    ws["B6"], ws["C6"] = "C2", "2.2uF"
+    book.save(tmp_path / "gaps.xlsx")
+    bom = read_bom(tmp_path / "gaps.xlsx")
+    assert bom.header_line == 3
+    assert [(ln.line, ln.refs) for ln in bom.lines] == [(4, ("C1",)), (6, ("C2",))]
+    assert bom.lines[1].values["capacitance"] == pytest.approx(2.2e-6)
+
+
+def test_xlsx_content_under_a_csv_name(tmp_path):
+    path = _xlsx(tmp_path / "bom.csv", {"S": [["Ref", "Value"], ["R1", "10k"]]})
+    bom = read_bom(path)
+    assert bom.sheet == "S" and bom.lines[0].values["resistance"] == 10_000.0
