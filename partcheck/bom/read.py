@@ -191,6 +191,10 @@ def _not_a_table(data: bytes, path: Path) -> None:
         raise BomError("this is an old binary Office file (.xls); save it as .xlsx or .csv", file=path)
     head = data[:4096]
     if b"\x00" in head and not head.startswith((b"\xff\xfe", b"\xfe\xff")):
+        half = len(head) // 2
+        if half >= 2 and max(head[1::2].count(0), head[0::2].count(0)) > 0.9 * half:  # every other byte NUL
+            raise BomError("this looks like UTF-16 text without a byte-order mark; save it as UTF-8 "
+                           "(or as UTF-16 with a byte-order mark)", file=path)
         raise BomError("this is a binary file, not a text table; expected CSV, TSV, semicolon text or XLSX",
                        file=path)
 
@@ -200,7 +204,10 @@ def _sniff(text: str) -> str:
     lines = [ln for ln in text.splitlines()[:200] if ln.strip()]
     best, best_key = ",", (-1, -1)
     for delim in _DELIMITERS:
-        counts = [len(row) for row in csv.reader(lines, delimiter=delim)]
+        try:
+            counts = [len(row) for row in csv.reader(lines, delimiter=delim)]
+        except csv.Error:  # a cell beyond the field limit: _text_grid reports it with its line
+            continue
         multi = [c for c in counts if c > 1]
         if not multi:
             continue
@@ -220,7 +227,20 @@ def _text_grid(text: str, delimiter: str) -> list[tuple[int, list[str]]]:
             grid.append((line, row))
             line = reader.line_num + 1
     except csv.Error as exc:
+        if "field limit" in str(exc):
+            raise BomError(f"a cell is longer than {csv.field_size_limit():,} characters, more than any BOM cell "
+                           "holds; is this the right file?", line=reader.line_num) from None
         raise BomError(f"cannot split the text into cells: {exc}", line=reader.line_num) from None
+    if text.count('"') % 2 and grid:
+        # An odd number of quotes may mean the file ends inside a quoted cell (a truncated file);
+        # the lenient reader above would swallow the rest of the file into that cell silently.
+        try:
+            for _row in csv.reader(io.StringIO(text, newline=""), delimiter=delimiter, strict=True):
+                pass
+        except csv.Error as exc:
+            if "unexpected end of data" in str(exc):
+                raise BomError("the file ends inside a quoted cell that starts on this line; is the file "
+                               "truncated, or is a closing '\"' missing?", line=grid[-1][0]) from None
     return grid
 
 
