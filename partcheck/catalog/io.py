@@ -515,6 +515,9 @@ def validate(table: Table, curve_table: Table | None = None, *, existing: Iterab
     return Validated(table.file, values, list(table.lines), list(table.keys or [None] * n), curves, curves_file)
 
 
+_FREE_TEXT = frozenset({"description", "package", "notes"})
+
+
 def _validate_column(name: str, cells: tuple, cats: list[str | None], table: Table, problems: list[Problem],
                      text_only: bool) -> list:
     """Parse and check one column; returns its values (None where empty or bad)."""
@@ -523,6 +526,8 @@ def _validate_column(name: str, cells: tuple, cats: list[str | None], table: Tab
     values: list = [None] * len(cells)
     cache: dict[object, float | str] = {}
     missing = object()
+    if text_only and spec.common and name in _FREE_TEXT:  # any text, any category: strip only
+        return [c.strip() or None for c in cells]
     if text_only:
         filled = list(compress(range(len(cells)), cells))  # non-empty strings, at C speed
     else:  # spreadsheets and JSON: 0 is a value, not an empty cell
