@@ -175,10 +175,16 @@ def load_design(path: str | Path) -> Design:
         raise DesignError("the design file does not exist", file=path) from None
     except (OSError, UnicodeDecodeError) as exc:
         raise DesignError(f"cannot read the design file ({exc})", file=path) from None
+    if "\x00" in text:
+        raise DesignError("contains NUL characters: UTF-16 text without a byte-order mark, or a binary file; "
+                          "save the design file as UTF-8 text", file=path)
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise DesignError(f"not valid TOML: {exc}", file=path) from None
+    except RecursionError:  # tomllib recurses once per nested array or inline table
+        raise DesignError("not valid TOML for a design file: arrays or inline tables nested too deeply",
+                          file=path) from None
     return design_from_dict(data, file=path)
 
 

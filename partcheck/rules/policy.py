@@ -346,8 +346,14 @@ def _looks_like_path(spec: str) -> bool:
 
 def _load(text: str, *, file: str, base_dir: Path, chain: tuple[str, ...]) -> Policy:
     src = _Source(text, file, label=chain[0] if chain[0].startswith("preset ") else file)
+    if "\x00" in text:
+        raise PolicyError("contains NUL characters: UTF-16 text without a byte-order mark, or a binary file; "
+                          "save the policy file as UTF-8 text", file=file)
     try:
         doc = tomllib.loads(text)
+    except RecursionError:  # tomllib recurses once per nested array or inline table
+        raise PolicyError("not valid TOML for a policy file: arrays or inline tables nested too deeply",
+                          file=file) from None
     except tomllib.TOMLDecodeError as exc:
         m = re.search(r"\(at line (\d+), column (\d+)\)", str(exc))
         line = int(m.group(1)) if m else None
