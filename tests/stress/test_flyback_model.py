@@ -203,3 +203,16 @@ def test_currents_continuous_across_the_ccm_dcm_boundary(p):
     for key in ("ipk", "sw_rms", "sw_avg", "duty", "is_pk_j", "is_rms_j", "icout_j", "icin", "p_clamp"):
         a, b = np.ravel(below[key])[0], np.ravel(above[key])[0]
         assert b == pytest.approx(a, rel=1e-4, abs=1e-12), key
+
+
+def test_blockwise_solve_equals_one_pass():
+    # solve() works through large inputs in cache-sized blocks; the result must not depend on it.
+    rng = np.random.default_rng(5)
+    n = 103
+    op = OperatingPoints.create(
+        vin=rng.uniform(18, 60, n), vout=[5.0], iout=rng.uniform(0.2, 3, (n, 1)), vf=[0.45], n=[4.0],
+        lm=rng.uniform(20e-6, 200e-6, n), llk=1e-6, fsw=100e3, eta=0.85, vclamp=60.0)
+    whole, blocks = solve(op, chunk=10_000), solve(op, chunk=7)
+    assert whole.keys() == blocks.keys()
+    for key in whole:
+        np.testing.assert_array_equal(np.broadcast_to(whole[key], np.shape(blocks[key])), blocks[key], err_msg=key)
