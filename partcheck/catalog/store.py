@@ -30,6 +30,7 @@ from sqlalchemy.orm import Session
 
 from ..errors import CatalogError, CatalogInputError, NotFoundError
 from . import io as cio
+from . import validate as cval
 from .migrations import CURRENT_VERSION, check_version, migrate, schema_version
 from .models import CATEGORIES, CATEGORY_FIELDS, FIELDS, Curve, CurvePoint, Part, PartRecord
 
@@ -234,8 +235,8 @@ class Catalog:
 
     def add(self, fields: dict[str, str | float], *, update: bool = False) -> PartRecord:
         """Add one part from column values (text with units, or SI numbers); returns it as stored."""
-        table = cio.Table("", list(fields), [list(fields.values())], [None], None)
-        validated = cio.validate(table, None, existing=self._existing(), update=update, verb="added")
+        table = cval.Table("", list(fields), [list(fields.values())], [None], None)
+        validated = cval.validate(table, None, existing=self._existing(), update=update, verb="added")
         self._write(validated, update=update)
         return self.get(str(validated.columns["part_number"][0]))
 
@@ -250,10 +251,10 @@ class Catalog:
         """
         table = cio.read_table(path)
         curve_table = cio.read_curve_table(path)
-        validated = cio.validate(table, curve_table, existing=self._existing(), update=update)
+        validated = cval.validate(table, curve_table, existing=self._existing(), update=update)
         return self._write(validated, update=update, method=method)
 
-    def _write(self, v: cio.Validated, *, update: bool, method: str = "bulk") -> ImportReport:
+    def _write(self, v: cval.Validated, *, update: bool, method: str = "bulk") -> ImportReport:
         pns = v.columns["part_number"]
         with self._conn(write=True) as conn:
             existing = dict(conn.execute(select(PART.c.part_number, PART.c.id)).all())
@@ -283,7 +284,7 @@ class Catalog:
         return ImportReport(v.file, len(new), len(old), points, v.curves_file, method)
 
     @staticmethod
-    def _insert_bulk(conn, v: cio.Validated, indices: list[int]) -> None:
+    def _insert_bulk(conn, v: cval.Validated, indices: list[int]) -> None:
         # One executemany per category, binding only that category's columns (the rest are NULL).
         by_category: dict[str, list[int]] = defaultdict(list)
         cats = v.columns["category"]
@@ -365,22 +366,22 @@ class Catalog:
         where = []
         if category is not None:
             if category not in CATEGORIES:
-                raise CatalogInputError(cio._choice_message("category", category, CATEGORIES), column="category")
+                raise CatalogInputError(cval._choice_message("category", category, CATEGORIES), column="category")
             where.append(PART.c.category == category)
         if subtype is not None:
             valid = sorted({s for subs in CATEGORIES.values() for s in subs}) if category is None \
                 else CATEGORIES[category]
             if subtype not in valid:
-                raise CatalogInputError(cio._choice_message("subtype", subtype, valid), column="subtype")
+                raise CatalogInputError(cval._choice_message("subtype", subtype, valid), column="subtype")
             where.append(PART.c.subtype == subtype)
         for name, value in (min_ratings or {}).items():
             spec = FIELDS.get(name)
             if spec is None or spec.text:
                 numeric = [n for n, s in FIELDS.items() if not s.text]
-                raise CatalogInputError(cio.unknown_column_message(name, numeric).replace(
+                raise CatalogInputError(cval.unknown_column_message(name, numeric).replace(
                     "unknown column", "no numeric column").replace("valid columns", "numeric columns"), key=name)
             try:
-                minimum = cio.parse_cell(value, spec.kind)
+                minimum = cval.parse_cell(value, spec.kind)
             except CatalogInputError:
                 raise
             except ValueError as exc:

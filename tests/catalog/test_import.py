@@ -9,7 +9,7 @@ import pytest
 from openpyxl import Workbook
 
 from partcheck.catalog import open_catalog
-from partcheck.catalog.io import MAX_LISTED
+from partcheck.catalog.validate import MAX_LISTED
 from partcheck.errors import CatalogInputError
 
 HEAD = "part_number,category,subtype,vds_max,id_max,capacitance,v_rated,dielectric,tolerance,tj_max\n"

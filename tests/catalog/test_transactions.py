@@ -11,6 +11,7 @@ from sqlalchemy.exc import OperationalError
 
 from partcheck.catalog import io as cio
 from partcheck.catalog import store
+from partcheck.catalog import validate as cval
 from partcheck.errors import CatalogError
 
 from .conftest import SMALL
@@ -41,7 +42,7 @@ def test_failure_half_way_through_the_write_rolls_everything_back(tmp_path, monk
 def test_part_added_by_someone_else_during_the_import(tmp_path):
     with store.open_catalog(tmp_path / "c.sqlite") as cat:
         table = cio.read_table(SMALL)
-        validated = cio.validate(table, cio.read_curve_table(SMALL), existing=cat._existing())
+        validated = cval.validate(table, cio.read_curve_table(SMALL), existing=cat._existing())
         cat.add({"part_number": "TST-Z-150V", "category": "clamp"})  # the other writer
         with pytest.raises(CatalogError) as info:
             cat._write(validated, update=False)
