@@ -420,9 +420,13 @@ class Catalog:
             rows = conn.execute(select(PART.c.id, PART.c.part_number, PART.c.description).where(*where)).all()
         choices = {pid: f"{pn} {desc or ''}" for pid, pn, desc in rows}
         number = {pid: pn for pid, pn, _ in rows}
-        hits = process.extract(text, choices, scorer=fuzz.WRatio, processor=utils.default_process,
+        # Token-set similarity ranks "10uF 25V X7R" above parts sharing only one token; the
+        # weighted ratio breaks its ties (it prefers the closer spelling), then the part number.
+        hits = process.extract(text, choices, scorer=fuzz.token_set_ratio, processor=utils.default_process,
                                limit=None, score_cutoff=40)
-        hits.sort(key=lambda h: (-h[1], number[h[2]]))
+        query = utils.default_process(text)
+        tie = {h[2]: fuzz.WRatio(query, utils.default_process(h[0])) for h in hits}
+        hits.sort(key=lambda h: (-h[1], -tie[h[2]], number[h[2]]))
         hits = hits[:limit]
         if not hits:
             return []

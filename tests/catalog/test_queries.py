@@ -52,6 +52,9 @@ def test_find_ranks_part_numbers_and_descriptions(catalog):
     assert all(0 <= score <= 100 for _, score in hits)
     assert [s for _, s in hits] == sorted((s for _, s in hits), reverse=True)
     assert catalog.find("TST-SW-150V-8A", limit=1)[0][0].part_number == "TST-SW-150V-8A"
+    # every word of the query in one part beats a part sharing most of them, in any order
+    top = catalog.find("650 V GaN switch", limit=2)
+    assert top[0][0].part_number == "TST-SW-650V-2A" and top[0][1] == 100.0 and top[1][1] < 100.0
     only = catalog.find("test", limit=50, category="diode")
     assert {r.category for r, _ in only} == {"diode"} and len(only) == 2
     assert len(catalog.find("test", limit=3)) == 3
