@@ -323,6 +323,10 @@ def read_content(
             warnings.append(f"tolerance {tol!r} could not be read: {exc}")
     if "tolerance" in values and not tolerance_text.strip() and not set(content.categories) & {"capacitor", "resistor"}:
         del values["tolerance"]  # "CTR 100%" on an optocoupler is not a tolerance
+    for key in [k for k, v in values.items() if v < 0]:  # "-10uF": no part has a negative value or rating
+        label = {"v_rated": "voltage rating", "i_rated": "current rating", "p_rated": "power rating"}.get(key, key)
+        warnings.append(f"{label} {format_quantity(values.pop(key), _KIND_OF_KEY.get(key))} "
+                        "is negative; no part value or rating is, so it was not used")
     content.values = values
     content.dielectric = dielectric_key(dielectric_text) or v_diel or d_diel
     content.package = package_key(package_text) or v_pack or d_pack
