@@ -25,6 +25,7 @@ from pathlib import Path
 from typing import IO
 
 from ..errors import CatalogInputError
+from .migrations import CURRENT_VERSION
 from .models import CATEGORY_FIELDS, CURVE_COLUMNS, CURVES, FIELDS, PartRecord
 from .validate import Problem, Table, _is_empty, _text_cell, raise_problems
 
@@ -67,6 +68,8 @@ def _read_text(path: Path) -> str:
     except UnicodeDecodeError as exc:
         line = path.read_bytes()[: exc.start].count(b"\n") + 1
         raise CatalogInputError("is not UTF-8 text; save it as 'CSV UTF-8'", file=path, line=line) from None
+    except OSError as exc:
+        raise CatalogInputError(f"cannot read the file: {exc.strerror or exc}", file=path) from None
 
 
 def _read_delimited(path: Path, delimiter: str) -> Table:
@@ -152,6 +155,11 @@ def _read_json(path: Path) -> Table:
     parts = doc.get("parts") if isinstance(doc, dict) else doc
     if not isinstance(parts, list):
         raise CatalogInputError('expected a JSON object with a "parts" list', file=path)
+    version = doc.get("schema_version") if isinstance(doc, dict) else None
+    if isinstance(version, int) and version > CURRENT_VERSION:
+        raise CatalogInputError(f"was written with catalog schema version {version}, newer than version "
+                                f"{CURRENT_VERSION} that this partcheck understands; upgrade partcheck to import it",
+                                file=path, key="schema_version")
     header: list[str] = []
     seen: set[str] = set()
     for item in parts:

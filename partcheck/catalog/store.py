@@ -500,9 +500,13 @@ def _write_atomic(path: Path, text: str) -> None:
     if not path.parent.is_dir():
         raise CatalogInputError(f"cannot write {path}: the directory {path.parent} does not exist", file=path)
     tmp = path.with_name(f".{path.name}.partcheck-tmp")
-    with open(tmp, "w", encoding="utf-8", newline="") as f:
-        f.write(text)
-    os.replace(tmp, path)
+    try:
+        with open(tmp, "w", encoding="utf-8", newline="") as f:
+            f.write(text)
+        os.replace(tmp, path)
+    except OSError as exc:
+        tmp.unlink(missing_ok=True)
+        raise CatalogInputError(f"cannot write the file: {exc.strerror or exc}", file=path) from None
 
 
 # Curve type re-exported for callers that annotate with it.

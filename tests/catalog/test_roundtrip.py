@@ -105,3 +105,19 @@ def test_export_format_from_the_file_name(tmp_path, catalog):
     with pytest.raises(CatalogInputError, match="unknown export format 'xml'; expected csv or json"):
         catalog.export(tmp_path / "d.csv", "xml")
     assert not (tmp_path / "c.xlsx").exists() and not (tmp_path / "d.csv").exists()
+
+
+def test_json_from_a_newer_schema_is_refused(tmp_path, catalog):
+    stream = io.StringIO()
+    catalog.export(stream, "json")
+    newer = tmp_path / "newer.json"
+    newer.write_text(stream.getvalue().replace('"schema_version": 1', '"schema_version": 3'), encoding="utf-8")
+    with pytest.raises(CatalogInputError) as info:
+        catalog.import_file(newer, update=True)
+    assert str(info.value) == (f"{newer}, key 'schema_version': was written with catalog schema version 3, newer "
+                               "than version 1 that this partcheck understands; upgrade partcheck to import it")
+
+
+def test_export_into_a_missing_folder(tmp_path, catalog):
+    with pytest.raises(CatalogInputError, match="the directory .*nowhere does not exist"):
+        catalog.export(tmp_path / "nowhere" / "x.csv")
