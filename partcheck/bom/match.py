@@ -42,8 +42,12 @@ DEFAULT_AMBIGUITY_GAP: Final = 3.0
 #: Text similarity of a line's description to a part's description above which a contradiction
 #: of values is reported as a conflict rather than as "no such part".
 CONFLICT_TEXT: Final = 95.0
-#: Rows scored by text at a time (see ``Matcher._score_block``).
+#: Rows scored by text at a time, and best rows kept per category (see ``Matcher._score_block``).
 _CHUNK: Final = 256
+_PER_BLOCK: Final = 8
+#: A word of the line that reads like a type or series code: a letter first, a digit somewhere
+#: (``m924``, ``efd20``); quantities (``25v``, ``4k7``) start with a digit and dielectric codes are excluded.
+_CODE_TOKEN: Final = re.compile(r"(?!(?:c0g|np0|x5r|x6s|x7r|x7s|x7t|x8r|x8l|y5v|z5u|u2j)$)[a-z][a-z]*[0-9][a-z0-9]*")
 
 STATUSES: Final = ("matched", "ambiguous", "unmatched", "conflict", "not_fitted")
 
@@ -362,8 +366,16 @@ class Matcher:
         best = scored[0]
         part = self.parts[best[3]]
         base["category"] = part.category
+        code_note = ""
         if len(scored) > 1 and best[0] - scored[1][0] <= self.ambiguity_gap:
             close = [c for c in scored if best[0] - c[0] <= self.ambiguity_gap]
+            single = self._singled_out(query, close)
+            if single is not None:
+                best, (code, others) = single
+                part = self.parts[best[3]]
+                base["category"] = part.category
+                code_note = f"; the code {code!r} appears only in {part.part_number} among {others + 1} close candidates"
+        if not code_note and len(scored) > 1 and best[0] - scored[1][0] <= self.ambiguity_gap:
             names = [self.parts[c[3]].part_number for c in close]
             shown = ", ".join(f"{n} ({c[0]:.1f})" for n, c in zip(names[:4], close[:4]))
             return LineMatch(status="ambiguous", part_number=None, score=round(best[0], 1), method="fuzzy",
@@ -373,9 +385,10 @@ class Matcher:
                              **base)
         agree = _agreement_words(line, part)
         what = f"description and {agree} agree" if agree else "description agrees"
-        reason = note + f"{what} with {part.part_number} (text {best[1]:.0f}/100)"
-        if len(scored) > 1:
-            reason += f"; next best {self.parts[scored[1][3]].part_number} scores {scored[1][0]:.1f}"
+        reason = note + f"{what} with {part.part_number} (text {best[1]:.0f}/100)" + code_note
+        runner_up = next((c for c in scored if c[3] != best[3]), None)
+        if runner_up is not None and not code_note:
+            reason += f"; next best {self.parts[runner_up[3]].part_number} scores {runner_up[0]:.1f}"
         return LineMatch(status="matched", part_number=part.part_number, score=round(best[0], 1), method="fuzzy",
                          reason=reason, candidates=candidates, **base)
 
@@ -495,9 +508,32 @@ class Matcher:
         total = np.concatenate(totals)
         text_score = np.concatenate(texts)
         chosen = np.concatenate(picked)
-        keep = min(len(total), 8)
+        keep = min(len(total), _PER_BLOCK)
         best = np.argpartition(-total, keep - 1)[:keep] if len(total) > keep else np.arange(len(total))
         return [(float(total[j]), float(text_score[j]), cat, int(b.idx[survivors[chosen[j]]])) for j in best]
+
+    def _singled_out(self, query: str, close: list[tuple[float, float, str, int]]):
+        """The one near-tied candidate carrying a code of the line (letters and digits, ``m924``) that no
+        other near-tied candidate carries; None when there is no such single candidate.
+
+        Ratings that agree equally leave the description to decide; a type or series code written
+        on the BOM is the part of the description that identifies a part.
+        """
+        if len(close) >= _PER_BLOCK:
+            return None  # the near-tie may run past the candidates kept; do not guess
+        codes = [t for t in dict.fromkeys(query.split()) if _CODE_TOKEN.fullmatch(t)]
+        if not codes:
+            return None
+        keys = [set(_part_key(self.parts[c[3]]).split()) for c in close]
+        owners: dict[int, str] = {}
+        for code in codes:
+            have = [k for k, toks in enumerate(keys) if code in toks]
+            if len(have) == 1:
+                owners.setdefault(have[0], code)
+        if len(owners) != 1:
+            return None
+        (k, code), = owners.items()
+        return close[k], (code, len(close) - 1)
 
     def _copied_description(self, line: BomLine, cats: list[str]):
         desc = normalise_text(line.description)

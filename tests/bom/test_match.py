@@ -219,3 +219,15 @@ def test_unreadable_value_is_not_matched_by_package_alone(write, parts):
     assert (m.status, m.part_number) == ("unmatched", None)
     assert m.reason.startswith("the value '4k7x' could not be read as a resistance")
     assert any("no resistance could be read" in w for w in m.warnings)
+
+
+def test_a_code_on_the_line_breaks_a_tie_of_equal_ratings(write):
+    from partcheck.catalog.models import PartRecord
+
+    twins = [PartRecord(part_number=f"KQ-{k}", category="switch", subtype="mosfet", vds_max=100.0, id_max=4.0,
+                        package="SO-8", description=f"N-channel MOSFET 100V 4A series M{k}") for k in (17, 71, 170)]
+    m = one(write, twins, "Q1,1,,N-channel MOSFET 100V 4A series M71,SO-8,")
+    assert (m.status, m.part_number, m.method) == ("matched", "KQ-71", "fuzzy")
+    assert m.reason.endswith("; the code 'm71' appears only in KQ-71 among 2 close candidates")
+    m = one(write, twins, "Q1,1,,N-channel MOSFET 100V 4A,SO-8,")
+    assert m.status == "ambiguous" and len(m.candidates) == 3
