@@ -23,9 +23,9 @@ import numpy as np
 HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE.parent))
 
-from partcheck.design import design_from_dict  # noqa: E402
-from partcheck.stress import corners  # noqa: E402
-from partcheck.stress.flyback import MODE_NAMES, solve  # noqa: E402
+from partcheck.design import design_from_dict
+from partcheck.stress import corners
+from partcheck.stress.flyback import MODE_NAMES, solve
 
 DESIGN = {
     "name": "bench 48 V to 15 V, fixed 200 kHz, RCD clamp",
@@ -45,7 +45,7 @@ N_LOOP = 10_000
 def random_points(design, n: int, seed: int = 1):
     rng = np.random.default_rng(seed)
     tol = design.tolerances
-    u = lambda key: 1.0 + tol.get(key, 0.0) * rng.uniform(-1.0, 1.0, n)  # noqa: E731
+    u = lambda key: 1.0 + tol.get(key, 0.0) * rng.uniform(-1.0, 1.0, n)
     spec = corners.build_corners(design)[:1]
     vin = rng.uniform(design.input.vin_min, design.input.vin_max, n)
     return corners.operating_points(design, spec, vin=vin, lm_scale=u("lm"), fsw_scale=u("fsw"),
@@ -63,22 +63,22 @@ def ngspice_once(design) -> tuple[float, str] | None:
     fs, duty = float(sol["fs"][0]), float(sol["duty"][0])
     period, periods = 1.0 / fs, 200
     tstop = periods * period
-    params = dict(
-        title=design.name, vin=design.input.vin_nom, lm=tr.lm, ls=tr.lm / out.turns_ratio**2, n=out.turns_ratio,
-        ton=duty * period, period=period, ron=5e-3, vf=out.vf, cout=out.cout, esr=out.esr,
-        rload=out.vout / out.iout, vout_ic=out.vout, vclamp=cl.vclamp,
-        llk_line=f"Llk p1 p2 {tr.llk}" if tr.llk > 0 else "Vlk0 p1 p2 DC 0",
-        step=period / 400, tstop=tstop, tstart_save=tstop - 60 * period, t0=tstop - 20 * period,
-        t0_early=tstop - 60 * period, t1_early=tstop - 40 * period, t_on0=tstop - period + 0.5 * duty * period,
-        t_on1=tstop - period + 0.95 * duty * period)
+    params = {
+        "title": design.name, "vin": design.input.vin_nom, "lm": tr.lm, "ls": tr.lm / out.turns_ratio**2, "n": out.turns_ratio,
+        "ton": duty * period, "period": period, "ron": 5e-3, "vf": out.vf, "cout": out.cout, "esr": out.esr,
+        "rload": out.vout / out.iout, "vout_ic": out.vout, "vclamp": cl.vclamp,
+        "llk_line": f"Llk p1 p2 {tr.llk}" if tr.llk > 0 else "Vlk0 p1 p2 DC 0",
+        "step": period / 400, "tstop": tstop, "tstart_save": tstop - 60 * period, "t0": tstop - 20 * period,
+        "t0_early": tstop - 60 * period, "t1_early": tstop - 40 * period, "t_on0": tstop - period + 0.5 * duty * period,
+        "t_on1": tstop - period + 0.95 * duty * period}
     template = (HERE.parent / "tests" / "reference" / "flyback" / "open_loop.cir").read_text()
     with tempfile.TemporaryDirectory() as work:
         net = Path(work) / "bench.cir"
         net.write_text(template.format(**params))
         t0 = time.perf_counter()
-        run = subprocess.run([exe, "-b", str(net)], capture_output=True, text=True, timeout=600, cwd=work)
+        run = subprocess.run([exe, "-b", str(net)], capture_output=True, text=True, timeout=600, cwd=work, check=False)
         elapsed = time.perf_counter() - t0
-    m = re.search(r"^vout\s*=\s*([-+0-9.eE]+)", run.stdout, re.M)
+    m = re.search(r"^vout\s*=\s*([-+0-9.eE]+)", run.stdout, re.MULTILINE)
     return elapsed, f"Vout {float(m.group(1)):.3f} V" if m else "no result"
 
 

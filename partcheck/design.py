@@ -411,10 +411,10 @@ def _outputs(top: _Reader, path: Path | None, n_first: float | None) -> tuple[Ou
             n = n if n is not None else n_first
             if n is None:
                 raise r.error("turns_ratio", "missing: give Np/Ns in [transformer] turns_ratio or in the first [[output]]")
-        outs.append(dict(name=name, vout=abs(vout), iout=iout, vf=vf if vf is not None else 0.0, vf_given=vf is not None,
-                         turns_ratio=n, cout=r.quantity("cout", "F", positive=True),
-                         esr=r.quantity("esr", "ohm", nonnegative=True), dcr=r.quantity("dcr", "ohm", nonnegative=True),
-                         key=r.key("turns_ratio")))
+        outs.append({"name": name, "vout": abs(vout), "iout": iout, "vf": vf if vf is not None else 0.0,
+                     "vf_given": vf is not None, "turns_ratio": n, "cout": r.quantity("cout", "F", positive=True),
+                     "esr": r.quantity("esr", "ohm", nonnegative=True),
+                     "dcr": r.quantity("dcr", "ohm", nonnegative=True), "key": r.key("turns_ratio")})
     # Same volts per turn on every winding (reference note sec. 7): derive or check n_j.
     vr = outs[0]["turns_ratio"] * (outs[0]["vout"] + outs[0]["vf"])
     result = []

@@ -31,6 +31,7 @@ from dataclasses import dataclass, fields
 
 import numpy as np
 
+from .magnetics import core_peak_current
 from .waveform import PiecewiseLinear
 
 CCM, DCM, BCM = 0, 1, 2
@@ -81,9 +82,9 @@ class OperatingPoints:
         """Broadcast scalars and arrays to ``(N,)`` and ``(N, m)`` shapes."""
         vin = np.atleast_1d(np.asarray(vin, dtype=float))
         per = {k: np.asarray(v, dtype=float) for k, v in
-               dict(vout=vout, iout=iout, vf=vf, n=n, rsec=rsec, cout=cout, esr=esr).items()}
+               {"vout": vout, "iout": iout, "vf": vf, "n": n, "rsec": rsec, "cout": cout, "esr": esr}.items()}
         m = max(np.atleast_1d(per["vout"]).shape[-1], np.atleast_1d(per["iout"]).shape[-1])
-        scal = dict(lm=lm, llk=llk, fsw=fsw, eta=eta, vclamp=vclamp, cd=cd, ilim=ilim, t_pd=t_pd)
+        scal = {"lm": lm, "llk": llk, "fsw": fsw, "eta": eta, "vclamp": vclamp, "cd": cd, "ilim": ilim, "t_pd": t_pd}
         n_corners = max([vin.size] + [np.size(v) for v in scal.values()] +
                         [np.atleast_2d(v).shape[0] if np.ndim(v) == 2 else 1 for v in per.values()])
         shape1, shape2 = (n_corners,), (n_corners, m)
@@ -176,7 +177,7 @@ def _solve(op: OperatingPoints) -> dict[str, np.ndarray]:
 
         iout = op.iout.T
         if any_limit:  # overload corners: the load that brings the switch peak to the limit (sec. 5) [D]
-            ipk_lim = op.ilim + vin * op.t_pd / lp
+            ipk_lim = core_peak_current(op.ilim, vin, lp, op.t_pd)
             dip_lim = vin * d_ccm / (lp * op.fsw)
             iv_lim = ipk_lim - dip_lim
             pin_lim = np.where(iv_lim > 0, vin * (0.5 * lam * op.fsw * iv_lim**2 + 0.5 * (iv_lim + ipk_lim) * d_ccm),
@@ -471,7 +472,7 @@ def evaluate(design) -> StressResult:
 
 def corner_waveforms(design, corner_id: str) -> dict[str, PiecewiseLinear]:
     """The waveforms of one corner (see :func:`waveforms_at`), keys with output names as in the roles."""
-    design, specs, op, sol, keep, notes = _prepare(design)
+    design, specs, op, sol, _keep, _notes = _prepare(design)
     ids = [s.id for s in specs]
     if corner_id not in ids:
         raise KeyError(f"no corner {corner_id!r}; corners are {', '.join(ids)}")

@@ -39,7 +39,7 @@ def test_billings_2003_ccm_load_range():
     # D = 0.5, eta = 100 %; CCM to hold from 1.25 A to 5 A, giving "a ripple current of half the mean
     # value at maximum load".  The article's Lm and turns were not seen: n = 5 follows from D = 0.5
     # and Lm = 1 mH from the ripple statement (derived, reference note sec. 9).
-    kw = dict(vin=100.0, vout=[20.0], n=[5.0], lm=1e-3, fsw=50e3, eta=1.0, vf=[0.0])
+    kw = {"vin": 100.0, "vout": [20.0], "n": [5.0], "lm": 1e-3, "fsw": 50e3, "eta": 1.0, "vf": [0.0]}
     full = one(iout=[5.0], **kw)
     assert MODE_NAMES[int(full["mode"])] == "CCM"
     assert full["duty"] == pytest.approx(0.5, rel=1e-6)  # D = 0.5 (read)

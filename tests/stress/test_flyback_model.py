@@ -216,3 +216,30 @@ def test_blockwise_solve_equals_one_pass():
     assert whole.keys() == blocks.keys()
     for key in whole:
         np.testing.assert_array_equal(np.broadcast_to(whole[key], np.shape(blocks[key])), blocks[key], err_msg=key)
+
+
+@pytest.mark.parametrize("name", ["ccm_leakage", "dcm_leakage", "bcm_valley"])
+def test_overload_corner_runs_at_the_current_limit(name):
+    # At the -ilim corners the load rises until the switch peak is the limit plus the delay
+    # overshoot Vin·t_pd/(Lm + Llk) (reference note sec. 5); the power and output current rise with it.
+    data = copy.deepcopy(DESIGNS[name].raw)
+    data["converter"]["current_limit_delay"] = "150 ns"
+    design = design_from_dict(data)
+    result = evaluate(design)
+    lp = design.transformer.lm + design.transformer.llk
+    for cid, vin in (("vin_max-ilim", 32.0), ("vin_min-ilim", 18.0)):
+        c = result.corner(cid)
+        assert c.roles["transformer"]["i_peak"] == pytest.approx(4.0 + vin * 150e-9 / lp, rel=1e-9)
+        assert c.iout["5V"] > 2.0
+        full = result.corner(cid.replace("ilim", "full"))
+        assert c.roles["rectifier"]["i_avg"] > full.roles["rectifier"]["i_avg"]
+
+
+def test_overload_corner_beyond_max_duty_is_left_out_with_a_note():
+    # DCM at fixed frequency: full load at 18 V needs D = 0.351; at the limit D = Lp·Ipk·fs/Vin = 0.378.
+    data = copy.deepcopy(DESIGNS["dcm_leakage"].raw)
+    data["converter"]["max_duty"] = 0.36
+    result = evaluate(design_from_dict(data))
+    ids = [c.id for c in result.corners]
+    assert "vin_max-ilim" in ids and "vin_min-ilim" not in ids
+    assert any(n.startswith("vin_min-ilim: the duty would reach") for n in result.notes)

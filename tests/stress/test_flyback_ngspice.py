@@ -55,19 +55,20 @@ def simulate(ngspice: str, case: tuple, workdir: Path, steps_per_period: int = 4
     period = 1.0 / fsw
     tstop = periods * period
     t_last = tstop - period
-    params = dict(
-        title=f"Vin={vin} n={n} Lm={lm} Llk={llk} f={fsw} D={duty} R={rload}", vin=vin, lm=lm, ls=lm / n**2, n=n,
-        ton=duty * period, period=period, ron=5e-3, vf=vf, cout=cout, esr=esr, rload=rload, vout_ic=v_ic,
-        vclamp=vclamp if vclamp else 20 * vin,  # no clamp: a clamp level it never reaches
-        llk_line=f"Llk p1 p2 {llk}" if llk > 0 else "Vlk0 p1 p2 DC 0",
-        step=period / steps_per_period, tstop=tstop, tstart_save=tstop - 60 * period,
-        t0=tstop - 20 * period, t0_early=tstop - 60 * period, t1_early=tstop - 40 * period,
-        t_on0=t_last + 0.5 * duty * period, t_on1=t_last + 0.95 * duty * period,
-    )
+    params = {
+        "title": f"Vin={vin} n={n} Lm={lm} Llk={llk} f={fsw} D={duty} R={rload}", "vin": vin, "lm": lm, "ls": lm / n**2, "n": n,
+        "ton": duty * period, "period": period, "ron": 5e-3, "vf": vf, "cout": cout, "esr": esr, "rload": rload, "vout_ic": v_ic,
+        "vclamp": vclamp if vclamp else 20 * vin,  # no clamp: a clamp level it never reaches
+        "llk_line": f"Llk p1 p2 {llk}" if llk > 0 else "Vlk0 p1 p2 DC 0",
+        "step": period / steps_per_period, "tstop": tstop, "tstart_save": tstop - 60 * period,
+        "t0": tstop - 20 * period, "t0_early": tstop - 60 * period, "t1_early": tstop - 40 * period,
+        "t_on0": t_last + 0.5 * duty * period, "t_on1": t_last + 0.95 * duty * period,
+    }
     netlist = workdir / "flyback.cir"
     netlist.write_text(TEMPLATE.read_text().format(**params))
-    run = subprocess.run([ngspice, "-b", str(netlist)], capture_output=True, text=True, timeout=300, cwd=workdir)
-    meas = {m.group(1): float(m.group(2)) for m in re.finditer(r"^(\w+)\s*=\s*([-+0-9.eE]+)", run.stdout, re.M)}
+    run = subprocess.run([ngspice, "-b", str(netlist)], capture_output=True, text=True, timeout=300, cwd=workdir,
+                         check=False)
+    meas = {m.group(1): float(m.group(2)) for m in re.finditer(r"^(\w+)\s*=\s*([-+0-9.eE]+)", run.stdout, re.MULTILINE)}
     missing = {"vout", "pin", "sw_rms", "d_rms", "vds_pk", "vrev_pk"} - set(meas)
     assert not missing, f"ngspice did not report {missing}:\n{run.stdout[-2000:]}\n{run.stderr[-2000:]}"
     return meas
@@ -84,7 +85,7 @@ def simulated(tmp_path_factory):
 
 def engine(case: tuple, meas: dict[str, float]) -> dict[str, float]:
     """The engine fed with the simulation's settled Vout, Iout, efficiency and rectifier drop."""
-    vin, n, lm, llk, vclamp, fsw, duty, rload, vf, cout, esr, *_ = case
+    vin, n, lm, llk, vclamp, fsw, _duty, rload, _vf, cout, esr, *_ = case
     vout = meas["vout"]
     iout = vout / rload
     op = OperatingPoints.create(
