@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import copy
+from pathlib import Path
 import datetime as dt
 
 import pytest
@@ -190,3 +191,13 @@ def test_missing_file_and_bad_toml(tmp_path):
     bad.write_text("name = \n", encoding="utf-8")
     with pytest.raises(DesignError, match="not valid TOML"):
         load_design(bad)
+
+
+DEMOS = sorted((Path(__file__).resolve().parents[1] / "sample_boms").glob("*/design.toml"))
+
+
+@pytest.mark.parametrize("path", DEMOS, ids=[p.parent.name for p in DEMOS])
+def test_demo_designs_load_and_evaluate(path):
+    design = load_design(path)
+    result = evaluate(design)
+    assert result.corners and all(c.mode in ("CCM", "DCM", "BCM") for c in result.corners)

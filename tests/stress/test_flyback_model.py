@@ -243,3 +243,15 @@ def test_overload_corner_beyond_max_duty_is_left_out_with_a_note():
     ids = [c.id for c in result.corners]
     assert "vin_max-ilim" in ids and "vin_min-ilim" not in ids
     assert any(n.startswith("vin_min-ilim: the duty would reach") for n in result.notes)
+
+
+@pytest.mark.parametrize("cd,ipk,fs,duty", [(0.0, 2.0, 125.0e3, 0.5), (100e-12, 2.1055, 112.79e3, 0.4749)])
+def test_boundary_mode_with_valley_delay(cd, ipk, fs, duty):
+    # Constructed self-check of the reference note, sec. 9 Ex. 5 (not published; derived there from
+    # sec. 1.4): Vin = 100 V, Vr = 100 V, Lm = 200 uH, Pin = 50 W; first valley td = pi·sqrt(Lm·Cd).
+    s = solve(OperatingPoints.create(vin=100.0, vout=[100.0], iout=[0.5], n=[1.0], lm=200e-6, fsw=np.inf, eta=1.0,
+                                     boundary=True, cd=cd))
+    assert s["ipk"][0] == pytest.approx(ipk, rel=2e-4)
+    assert s["fs"][0] == pytest.approx(fs, rel=2e-4)
+    assert s["duty"][0] == pytest.approx(duty, rel=2e-4)
+    assert 0.5 * 200e-6 * s["ipk"][0] ** 2 * s["fs"][0] == pytest.approx(50.0, rel=1e-9)  # energy per cycle × fs
