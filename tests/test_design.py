@@ -3,8 +3,8 @@
 from __future__ import annotations
 
 import copy
-from pathlib import Path
 import datetime as dt
+from pathlib import Path
 
 import pytest
 
