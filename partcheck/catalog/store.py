@@ -68,8 +68,12 @@ class ImportReport:
     method: str = "bulk"
 
     def __str__(self) -> str:
-        curves = f", {self.curve_points} curve points" + (f" from {self.curves_file}" if self.curves_file else "")
-        return f"{self.file}: {self.added} parts added, {self.updated} updated{curves}"
+        curves = f", {_n(self.curve_points, 'curve point')}" + (f" from {self.curves_file}" if self.curves_file else "")
+        return f"{self.file}: {_n(self.added, 'part')} added, {self.updated} updated{curves}"
+
+
+def _n(count: int, noun: str) -> str:
+    return f"{count} {noun}{'' if count == 1 else 's'}"
 
 
 @dataclass(frozen=True)
