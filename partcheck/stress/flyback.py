@@ -21,7 +21,9 @@ read [R], from memory [M], derived [D] or common practice [CP]):
   in ts = Llk·Ipk/(Vc − Vr) while Lm is held at Vr by the secondary.  The secondary current is
   therefore n·(im − ilk): it rises linearly from zero to a reduced peak n·(Ipk − Vr·ts/Lm) at ts
   and then falls with im [D].  The clamp takes 0.5·Llk·Ipk²·Vc/(Vc − Vr) per cycle (sec. 2.1).
-  The turn-on commutation of the leakage in CCM (Llk·Iv/(Vin + Vr), tens of ns) is neglected.
+  In CCM the switch turns on into the conducting secondary: for tc = Llk·Iv/(Vin + Vr) the primary
+  current rises at (Vin + Vr)/Llk while the secondary current falls to zero, which lengthens the
+  duty by tc·fs [D].  The diode's reverse recovery and any ringing are not modelled.
 * Several outputs share the secondary current in proportion to their power (sec. 7).
 """
 
