@@ -184,6 +184,9 @@ def run() -> list[tuple[str, str]]:
         bom = read_bom(path)
         figures.append(("read BOM", f"{len(bom.lines):,} lines in {time.perf_counter() - t0:.2f} s"))
     per_size = []
+    warm = Matcher(catalog[:2_000])  # import-time and first-call costs stay out of the figures
+    for line in bom.lines[:50]:
+        warm.match_line(line)
     for size in SIZES:
         build, match, matches = _time_matching(bom, catalog[:size])
         per_size.append((size, match))

@@ -131,9 +131,16 @@ def _cat_parts_table(records) -> "object":
         column.no_wrap = True
     for r in records:
         ratings = "\n".join(f"{n} {_cat_value(r, n)}" for n in SUMMARY_FIELDS[r.category] if getattr(r, n) is not None)
-        table.add_row(r.part_number, f"{r.category}\n{r.subtype or '—'}", ratings or "—", r.status or "approved",
-                      r.description or "")
+        table.add_row(*_cat_cells(r.part_number, f"{r.category}\n{r.subtype or '—'}", ratings or "—",
+                                  r.status or "approved", r.description or ""))
     return table
+
+
+def _cat_cells(*texts: str) -> list:
+    """Table cells as plain text: catalog data and docs ("[s]", "[h]") must not be read as rich markup."""
+    from rich.text import Text
+
+    return [Text(t) for t in texts]
 
 
 @catalog_app.command("init")
@@ -260,9 +267,9 @@ def catalog_show(
     if format == "json":
         _cat_json(part_to_json(record))
         return
-    table = Table("column", "value", "meaning", title=record.part_number)
+    table = Table("column", "value", "meaning", title=_cat_cells(record.part_number)[0])
     for name in CATEGORY_FIELDS[record.category]:
-        table.add_row(name, _cat_value(record, name), FIELDS[name].doc)
+        table.add_row(*_cat_cells(name, _cat_value(record, name), FIELDS[name].doc))
     out.print(table)
     for name, points in record.curves.items():
         spec = CURVES[name]
@@ -296,7 +303,7 @@ def catalog_find(
     table = Table("score", "part number", "category", "subtype", "description")
     table.columns[1].no_wrap = True
     for r, score in hits:
-        table.add_row(f"{score:.0f}", r.part_number, r.category, r.subtype or "—", r.description or "")
+        table.add_row(*_cat_cells(f"{score:.0f}", r.part_number, r.category, r.subtype or "—", r.description or ""))
     out.print(table)
 
 
@@ -368,13 +375,14 @@ def match_command(
     else:
         table = Table(title=report.bom.path)
         for name, opts in (("line", {"justify": "right"}), ("refs", {"overflow": "fold", "max_width": 18}),
-                           ("qty", {"justify": "right"}), ("status", {"no_wrap": True}), ("part", {"no_wrap": True}),
+                           ("qty", {"justify": "right"}), ("text", {"max_width": 28, "overflow": "fold"}),
+                           ("status", {"no_wrap": True}), ("part", {"no_wrap": True}),
                            ("score", {"justify": "right"}), ("method", {"no_wrap": True}),
                            ("reason", {"ratio": 1, "min_width": 30})):
             table.add_column(name, **opts)
         for m in report.matches:
             style = _MATCH_STYLES.get(m.status, "")
-            table.add_row(str(m.line), Text(", ".join(m.refs)), "" if m.qty is None else str(m.qty),
+            table.add_row(str(m.line), Text(", ".join(m.refs)), "" if m.qty is None else str(m.qty), Text(m.text),
                           Text(m.status, style=style), Text(m.part_number or "—"), f"{m.score:.1f}",
                           m.method or "—", Text(m.reason), style=None)
         out.print(table)

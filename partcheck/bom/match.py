@@ -138,7 +138,7 @@ class _Block:
     idx: np.ndarray  # indices into Matcher.parts
     keys: list[str]  # normalised fuzzy text per part
     keys_array: np.ndarray  # the same as an object array, for fancy indexing
-    descriptions: list[str]  # normalised description per part
+    parts: list[Any]  # the block's parts, in row order
     ratings: dict[str, np.ndarray]  # catalog field → float array (NaN when empty)
     tolerance: np.ndarray
     package: np.ndarray  # int codes, -1 when empty
@@ -148,6 +148,14 @@ class _Block:
     primary: tuple[str, np.ndarray, np.ndarray, np.ndarray] | None = None  # BOM key, sorted values, order, NaN rows
     max_tolerance: float = 0.05
     by_code: dict[str, tuple[dict[int, np.ndarray], np.ndarray]] = field(default_factory=dict)
+    _descriptions: list[str] | None = None
+
+    @property
+    def descriptions(self) -> list[str]:
+        """Normalised description per part (built on first use: only conflict detection needs it)."""
+        if self._descriptions is None:
+            self._descriptions = [normalise_text(_attr(p, "description") or "") for p in self.parts]
+        return self._descriptions
 
 
 def _attr(part: Any, name: str) -> Any:
@@ -201,7 +209,7 @@ class Matcher:
             idx=np.array(idx, dtype=np.int64),
             keys=(keys := [_part_key(p) for p in parts]),
             keys_array=np.array(keys, dtype=object),
-            descriptions=[normalise_text(_attr(p, "description") or "") for p in parts],
+            parts=parts,
             ratings=ratings,
             tolerance=np.array([_num(_attr(p, "tolerance")) for p in parts], dtype=float),
             package=np.array([self._code(_part_package(p)) for p in parts], dtype=np.int64),

@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import re
 from dataclasses import dataclass, field
+from functools import lru_cache
 from typing import Final
 
 from ..errors import QuantityError
@@ -125,6 +126,7 @@ def dielectric_key(text: object) -> str | None:
     return _DIELECTRIC_CANON.get(t, t)
 
 
+@lru_cache(maxsize=65536)
 def quantity_token(value: float, kind: str) -> str:
     """The canonical word for a quantity in fuzzy keys: ``1e-5, "F"`` → ``"10uf"``."""
     return format_quantity(value, kind).replace(" ", "").replace("µ", "u").replace("Ω", "ohm").lower()

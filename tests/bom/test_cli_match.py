@@ -107,3 +107,14 @@ def test_sheet_and_decimal_comma_options(tmp_path, write, catalog_file):
                                  "--no-decimal-comma"])
     assert forced.exit_code == 1
     assert "a comma is not a decimal point here" in forced.stderr
+
+
+def test_table_shows_cells_as_plain_text(write, catalog_file):
+    bom = write("bom.csv", 'Ref,Value,Description\nC1,10uF 25V,"[bold red]x[/] <script>alert(1)</script>"\n'
+                           "C2,1uQ,\n")
+    result = runner.invoke(app, ["match", str(bom), "--db", str(catalog_file)], env={"COLUMNS": "200"})
+    assert result.exit_code == 1
+    assert "[bold red]x[/]" in result.stdout and "<script>" in result.stdout  # not taken as markup
+    assert "warning: line 3: value '1uQ': no capacitance could be read" in result.stderr
+    doc = runner.invoke(app, ["match", str(bom), "--db", str(catalog_file), "--format", "json"])
+    assert json.loads(doc.stdout)["lines"][0]["text"] == "10uF 25V | [bold red]x[/] <script>alert(1)</script>"

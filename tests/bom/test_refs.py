@@ -1,6 +1,8 @@
 """Reference designator expansion and its errors."""
 
 import pytest
+from hypothesis import given
+from hypothesis import strategies as st
 
 from partcheck.bom.read import MAX_EXPANSION, expand_refs
 from partcheck.errors import BomError
@@ -54,3 +56,11 @@ def test_largest_allowed_range():
 def test_range_end_not_a_reference():
     with pytest.raises(BomError, match="'C1x!' is not a reference"):
         expand_refs("C0-C1x!")
+
+
+@given(prefix=st.sampled_from(["C", "R", "D", "TVS", "Q"]), first=st.integers(0, 500), count=st.integers(1, 300),
+       sep=st.sampled_from(["-", "..", " - ", "–"]))
+def test_range_expands_to_every_number_once(prefix, first, count, sep):
+    last = first + count - 1
+    refs = expand_refs(f"{prefix}{first}{sep}{prefix}{last}")
+    assert refs == tuple(f"{prefix}{n}" for n in range(first, last + 1))
