@@ -66,6 +66,17 @@ def test_init_add_show_list_find_remove(tmp_path):
     assert result.stderr == "error: part 'SW-X1' is not in the catalog; add it with `partcheck catalog add`\n"
 
 
+def test_docs_and_data_with_brackets_are_shown_verbatim(tmp_path):
+    db = tmp_path / "c.sqlite"
+    cli("add", "D-1", "--category", "diode", "--description", "[bold]fast[/bold] [s] rectifier", "--set", "trr=35ns",
+        db=db)
+    shown = cli("show", "D-1", db=db).stdout
+    assert "reverse recovery time [s]" in shown  # "[s]" is not rich's strike-through markup here
+    assert "[bold]fast[/bold] [s] rectifier" in shown
+    assert "[bold]fast[/bold] [s] rectifier" in cli("list", db=db).stdout
+    assert "[bold]fast[/bold]" in cli("find", "rectifier", db=db).stdout
+
+
 def test_import_list_filters_and_export(tmp_path):
     db = tmp_path / "c.sqlite"
     result = cli("import", str(SMALL), db=db)
