@@ -60,7 +60,7 @@ def curves_path(path: str | Path) -> Path:
 
 def _read_text(path: Path) -> str:
     try:
-        return path.read_text(encoding="utf-8-sig")
+        text = path.read_text(encoding="utf-8-sig")
     except FileNotFoundError:
         raise CatalogInputError("file not found", file=path) from None
     except IsADirectoryError:
@@ -70,6 +70,11 @@ def _read_text(path: Path) -> str:
         raise CatalogInputError("is not UTF-8 text; save it as 'CSV UTF-8'", file=path, line=line) from None
     except OSError as exc:
         raise CatalogInputError(f"cannot read the file: {exc.strerror or exc}", file=path) from None
+    if "\x00" in text:
+        line = text[: text.index("\x00")].count("\n") + 1
+        raise CatalogInputError("contains NUL characters: UTF-16 text without a byte-order mark, or a binary "
+                                "file; save it as 'CSV UTF-8'", file=path, line=line)
+    return text
 
 
 def _read_delimited(path: Path, delimiter: str) -> Table:
@@ -152,6 +157,9 @@ def _read_json(path: Path) -> Table:
         doc = json.loads(_read_text(path), parse_constant=lambda c: c)  # keep NaN/Infinity as text: rejected later
     except json.JSONDecodeError as exc:
         raise CatalogInputError(f"is not valid JSON: {exc.msg}", file=path, line=exc.lineno) from None
+    except RecursionError:
+        raise CatalogInputError("is not a catalog: its JSON arrays or objects are nested too deeply",
+                                file=path) from None
     parts = doc.get("parts") if isinstance(doc, dict) else doc
     if not isinstance(parts, list):
         raise CatalogInputError('expected a JSON object with a "parts" list', file=path)

@@ -236,7 +236,7 @@ def validate(table: Table, curve_table: Table | None = None, *, existing: Iterab
     # Identity columns first: everything else is checked against the category.
     cats: list[str | None] = [None] * n
     for i, cell in enumerate(columns["category"]):
-        if cell in CATEGORIES:  # the common case, checked first and at once
+        if isinstance(cell, str) and cell in CATEGORIES:  # the common case, checked first and at once
             cats[i] = cell
             continue
         line, key = _where(table, i)
@@ -257,6 +257,10 @@ def validate(table: Table, curve_table: Table | None = None, *, existing: Iterab
         if _is_empty(cell):
             line, key = _where(table, i)
             problems.append(Problem("the part number is empty", line, "part_number", key))
+            continue
+        if isinstance(cell, bool) or not isinstance(cell, (str, int, float)):  # JSON lists, objects, true/false
+            line, key = _where(table, i)
+            problems.append(Problem(f"{cell!r} is not a part number; expected text", line, "part_number", key))
             continue
         pn = _text_cell(cell)
         if not pn.isprintable():
