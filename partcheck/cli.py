@@ -375,13 +375,14 @@ def match_command(
     else:
         table = Table(title=report.bom.path)
         for name, opts in (("line", {"justify": "right"}), ("refs", {"overflow": "fold", "max_width": 18}),
-                           ("qty", {"justify": "right"}), ("status", {"no_wrap": True}), ("part", {"no_wrap": True}),
+                           ("qty", {"justify": "right"}), ("text", {"max_width": 28, "overflow": "fold"}),
+                           ("status", {"no_wrap": True}), ("part", {"no_wrap": True}),
                            ("score", {"justify": "right"}), ("method", {"no_wrap": True}),
                            ("reason", {"ratio": 1, "min_width": 30})):
             table.add_column(name, **opts)
         for m in report.matches:
             style = _MATCH_STYLES.get(m.status, "")
-            table.add_row(str(m.line), Text(", ".join(m.refs)), "" if m.qty is None else str(m.qty),
+            table.add_row(str(m.line), Text(", ".join(m.refs)), "" if m.qty is None else str(m.qty), Text(m.text),
                           Text(m.status, style=style), Text(m.part_number or "—"), f"{m.score:.1f}",
                           m.method or "—", Text(m.reason), style=None)
         out.print(table)
