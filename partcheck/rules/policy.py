@@ -31,6 +31,7 @@ from importlib import resources
 from pathlib import Path
 from typing import Any, Final
 
+from ..catalog.models import CATEGORIES as _CATALOG_CATEGORIES
 from ..errors import NotFoundError, PolicyError, QuantityError
 from ..units import format_quantity, parse_quantity
 
@@ -52,17 +53,8 @@ PARAMETERS: Final[dict[str, str]] = {
 #: limit what the policy requires); for all others the stress must stay below the limit.
 LARGER_IS_BETTER: Final = frozenset({"capacitance", "life"})
 
-#: Part categories and their subtypes (the catalog's list, DEVELOPERS.md "Catalog records").
-CATEGORIES: Final[dict[str, tuple[str, ...]]] = {
-    "switch": ("mosfet", "gan", "integrated"),
-    "diode": ("schottky", "ultrafast", "standard", "sic"),
-    "clamp": ("zener", "tvs"),
-    "capacitor": ("ceramic", "aluminium_electrolytic", "polymer", "tantalum", "film"),
-    "resistor": ("thick_film", "thin_film", "metal_film", "wirewound", "current_sense"),
-    "magnetic": ("transformer", "inductor"),
-    "optocoupler": ("transistor",),
-    "reference": ("shunt",),
-}
+#: Part categories and their subtypes: the catalog's own list, so the two can never disagree.
+CATEGORIES: Final[dict[str, tuple[str, ...]]] = _CATALOG_CATEGORIES
 
 #: The catalog column a rule's fraction or offset applies to when the rule names none
 #: (``rating = "..."`` overrides).  The pipeline reads this column of the part into
