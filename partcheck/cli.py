@@ -444,8 +444,8 @@ def stress_command(
     out.print(table)
     if "parts" in data:
         parts = Table("refs", "part", "role", "stress", "worst", "corner")
-        kinds = {"voltage": "V", "current_rms": "A", "current_peak": "A", "current_avg": "A", "power": "W",
-                 "temperature": "degC", "ripple_current": "A", "capacitance": "F", "life": "h", "saturation": "A"}
+        from .rules.policy import PARAMETERS as kinds
+
         for p in data["parts"]:
             for name, value in p["stresses"].items():
                 parts.add_row(", ".join(p["refs"]), p["part_number"], p["role"], name,
