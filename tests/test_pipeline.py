@@ -220,3 +220,33 @@ def test_cli_demo_writes_every_report(tmp_path):
         assert str(tmp_path / "out" / f"{name}.html") in done.stdout
         assert (tmp_path / "out" / f"{name}.html").is_file()
     assert "PASS" in done.stdout and "FAIL" in done.stdout
+
+
+def test_stress_report_parts_and_tolerances(catalog):
+    """`partcheck stress --bom --samples`: every mapped part has stresses; a bank of identical
+    capacitors shares the bank current equally, each carrying I_bank/N (identity check: equal
+    impedances in parallel), to within the harmonics captured; the Monte Carlo run is
+    reproducible and never exceeds the extremes for a monotone stress."""
+    from partcheck.pipeline import stress_report
+
+    design = SAMPLES / "sic_gate_drive" / "design.toml"
+    data = stress_report(design, bom=SAMPLES / "sic_gate_drive" / "bom.xlsx", catalog=catalog, samples=500, seed=7)
+    assert {c["id"] for c in data["corners"]} >= {"vin_min-full", "vin_max-full"}
+    parts = {p["refs"][0]: p for p in data["parts"]}
+    assert {"voltage", "current_peak", "temperature"} <= set(parts["Q1"]["stresses"])
+    checked = 0
+    for role, split in data["bank_split"].items():
+        corner = next(c for c in data["corners"] if c["id"] == split["corner"])
+        bank_rms = corner["roles"][role]["i_rms"]
+        if len({c["part_number"] for c in split["caps"]}) == 1:
+            n = len(split["caps"])
+            for cap in split["caps"]:
+                assert cap["i_rms"] == pytest.approx(bank_rms / n, rel=2e-3)
+            checked += 1
+    assert checked >= 2
+    wc = data["tolerances"]["worst_case"]["stresses"]["switch.i_peak"]
+    mc = data["tolerances"]["monte_carlo"]["stresses"]["switch.i_peak"]
+    assert wc["worst"] >= wc["nominal"]
+    assert mc["worst"] <= wc["worst"] * (1 + 1e-9)  # DCM peak current falls monotonically with Lm
+    again = stress_report(design, samples=500, seed=7)["tolerances"]["monte_carlo"]["stresses"]["switch.i_peak"]
+    assert again == mc
