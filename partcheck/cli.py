@@ -14,7 +14,6 @@ from __future__ import annotations
 import sys
 from typing import Annotated, Optional
 
-import click
 import typer
 from rich.console import Console
 from rich.markup import escape
@@ -30,7 +29,7 @@ err = Console(stderr=True, highlight=False, soft_wrap=True)
 class _PartcheckGroup(TyperGroup):
     """Turns the project's own errors into a message and exit code 2, for every subcommand."""
 
-    def invoke(self, ctx: click.Context):
+    def invoke(self, ctx: typer.Context):
         try:
             return super().invoke(ctx)
         except PartcheckError as exc:
