@@ -182,6 +182,8 @@ def load_design(path: str | Path) -> Design:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise DesignError(f"not valid TOML: {exc}", file=path) from None
+    except ValueError as exc:  # an integer of more than 4300 digits ("Exceeds the limit ...")
+        raise DesignError(f"not valid TOML for a design file: {exc}", file=path) from None
     except RecursionError:  # tomllib recurses once per nested array or inline table
         raise DesignError("not valid TOML for a design file: arrays or inline tables nested too deeply",
                           file=path) from None

@@ -192,7 +192,13 @@ def parse_quantity(text: str | float | int, kind: str | None = None, *, decimal_
     if isinstance(text, bool):
         raise _fail(text, kind, "a true/false value is not a number")
     if isinstance(text, (int, float)):
-        return _check_finite(float(text), text, kind)
+        try:
+            value = float(text)
+        except OverflowError:  # an integer beyond the float range (TOML and JSON integers have no limit)
+            digits = int(text.bit_length() * 0.30103) + 1  # str() of a huge int may itself be refused
+            raise QuantityError(f"an integer of about {digits} digits is too large to be {_expected(kind)} "
+                                "(the value must be finite)") from None
+        return _check_finite(value, text, kind)
     if not isinstance(text, str):
         raise _fail(text, kind, f"got a {type(text).__name__}")
     if not text.strip():

@@ -160,6 +160,8 @@ def _read_json(path: Path) -> Table:
     except RecursionError:
         raise CatalogInputError("is not a catalog: its JSON arrays or objects are nested too deeply",
                                 file=path) from None
+    except ValueError as exc:  # an integer of more than 4300 digits ("Exceeds the limit ...")
+        raise CatalogInputError(f"is not a catalog: {exc}", file=path) from None
     parts = doc.get("parts") if isinstance(doc, dict) else doc
     if not isinstance(parts, list):
         raise CatalogInputError('expected a JSON object with a "parts" list', file=path)

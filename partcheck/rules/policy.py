@@ -351,6 +351,8 @@ def _load(text: str, *, file: str, base_dir: Path, chain: tuple[str, ...]) -> Po
         line = int(m.group(1)) if m else None
         msg = re.sub(r"\s*\(at line \d+, column \d+\)", "", str(exc)) if m else str(exc)
         raise PolicyError(f"not valid TOML: {msg}", file=file, line=line) from None
+    except ValueError as exc:  # an integer of more than 4300 digits ("Exceeds the limit ...")
+        raise PolicyError(f"not valid TOML for a policy file: {exc}", file=file) from None
 
     for key in doc:
         if key not in POLICY_KEYS:
@@ -585,7 +587,10 @@ def _number(raw: Any, src: _Source, dotted: str, expected: str) -> float:
     if isinstance(raw, bool):
         raise src.error(f"expected {expected}, got {raw!r}", dotted)
     if isinstance(raw, (int, float)):
-        return float(raw)
+        try:
+            return float(raw)
+        except OverflowError:  # TOML integers have no size limit
+            raise src.error(f"expected {expected}, got an integer too large to be a number", dotted) from None
     if isinstance(raw, str):
         try:
             return parse_quantity(raw, "%") if "%" in raw else parse_quantity(raw, None)
