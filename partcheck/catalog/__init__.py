@@ -6,13 +6,14 @@ columns, ``CATEGORIES`` the categories and their subtypes.
 """
 
 from .models import CATEGORIES, CURVES, FIELDS, FieldSpec, PartRecord
-from .store import Catalog, ExportReport, ImportReport, default_location, open_catalog
+from .store import Catalog, CopyReport, ExportReport, ImportReport, default_location, open_catalog
 
 __all__ = [
     "CATEGORIES",
     "CURVES",
     "FIELDS",
     "Catalog",
+    "CopyReport",
     "ExportReport",
     "FieldSpec",
     "ImportReport",

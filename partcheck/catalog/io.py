@@ -20,7 +20,7 @@ import csv
 import io
 import json
 import re
-from collections.abc import Iterable
+from collections.abc import Iterable, Iterator
 from pathlib import Path
 from typing import IO
 
@@ -284,11 +284,26 @@ def part_to_json(record: PartRecord) -> dict[str, object]:
 
 def to_json(records: Iterable[PartRecord], schema_version: int) -> str:
     """The canonical JSON export (sorted keys within a fixed layout, floats as repr, one trailing newline)."""
-    doc = {"format": FORMAT_NAME, "schema_version": schema_version, "parts": [part_to_json(r) for r in records]}
-    return dumps(doc)
+    return "".join(iter_json(records, schema_version))
 
 
-_POINT_RE = re.compile(r"\[\s+(-?[0-9][0-9.eE+-]*),\s+(-?[0-9][0-9.eE+-]*)\s+\]")
+def iter_json(records: Iterable[PartRecord], schema_version: int) -> Iterator[str]:
+    """The canonical JSON export in pieces (a head, one piece per part, a tail): the same text as
+    ``dumps({"format": ..., "schema_version": ..., "parts": [...]})`` without holding every part."""
+    yield (f'{{\n  "format": {json.dumps(FORMAT_NAME)},\n  "schema_version": {json.dumps(schema_version)},'
+           '\n  "parts": [')
+    first = True
+    for record in records:
+        text = json.dumps(part_to_json(record), indent=2, ensure_ascii=False, allow_nan=False)
+        text = _POINT_RE.sub(r"[\1, \2]", text)  # JSON strings hold no raw newline: splitting lines is safe
+        yield ("\n" if first else ",\n") + "\n".join("    " + line for line in text.split("\n"))
+        first = False
+    yield "]\n}\n" if first else "\n  ]\n}\n"
+
+
+# A curve point as json.dumps(indent=...) lays it out: "[", newline, x, ",", newline, y, newline, "]".
+# Requiring the newlines keeps text inside strings (which cannot hold a raw newline) untouched.
+_POINT_RE = re.compile(r"\[\n\s+(-?[0-9][0-9.eE+-]*),\n\s+(-?[0-9][0-9.eE+-]*)\n\s+\]")
 
 
 def dumps(obj: object) -> str:

@@ -7,8 +7,19 @@ whose version is newer than :data:`CURRENT_VERSION` (or not a number) is refused
 
 Adding a migration: append ``Migration(n + 1, "what it does", function)`` to
 :data:`MIGRATIONS`; the function receives a SQLAlchemy ``Connection`` and must be written in
-dialect-neutral SQLAlchemy Core (SQLite and PostgreSQL).  Once a later migration changes a
-table, give version 1 a frozen copy of the original table definitions instead of the models.
+dialect-neutral SQLAlchemy Core (SQLite and PostgreSQL).  Version 1 creates the tables from a
+frozen copy of their original definitions (:data:`V1_TABLES`), never from the live models, so an
+old catalog and a new one migrated from scratch end with the same schema.
+
+Versions:
+
+1. the ``part``, ``curve_point``, ``catalog_meta`` and ``catalog_migration`` tables;
+2. ``part.updated_at``: when each part was last written (UTC, ISO 8601), set by every add,
+   import and update; NULL for parts written before version 2 (their time is unknown).  It is
+   provenance of this catalog, not a property of the part, so exports leave it out.
+
+Before an existing catalog is upgraded the store takes a backup (see :func:`backup_tables` and
+``Catalog._upgrade``).
 """
 
 from __future__ import annotations
@@ -18,7 +29,7 @@ from dataclasses import dataclass
 from datetime import UTC, datetime
 from typing import Final
 
-from sqlalchemy import Connection, insert, inspect, select, update
+from sqlalchemy import Column, Connection, Float, ForeignKey, Index, Integer, MetaData, String, Table, UniqueConstraint, insert, inspect, select, text, update
 
 from .. import __version__
 from ..errors import CatalogError
@@ -27,6 +38,36 @@ from .models import CatalogMeta, CatalogMigration, CurvePoint, Part
 META = CatalogMeta.__table__
 MIGRATION = CatalogMigration.__table__
 TABLES: Final = (META, MIGRATION, Part.__table__, CurvePoint.__table__)
+
+# ---- version 1, frozen: the tables exactly as the first release created them ----------------
+
+_V1 = MetaData()
+_V1_TEXT = frozenset({"part_number", "category", "subtype", "description", "package", "notes", "status",
+                      "dielectric", "case_size"})
+_V1_PART_COLUMNS: Final = (
+    "part_number", "category", "subtype", "description", "package", "notes", "status", "vds_max", "id_max",
+    "id_pulse", "rds_on", "rds_on_125", "coss", "qg", "vrrm", "if_avg", "ifsm", "vf", "vf_current", "trr",
+    "qrr", "cj", "v_breakdown", "v_clamp", "p_max", "p_pulse", "capacitance", "tolerance", "v_rated",
+    "dielectric", "esr", "esl", "ripple_current", "ripple_freq", "ripple_temp", "ripple_rise", "life_hours",
+    "life_temp", "case_size", "resistance", "p_rated", "t_knee", "v_max", "lm", "turns_ratio", "llk", "isat",
+    "dcr_pri", "dcr_sec", "v_isolation", "ctr_min", "ctr_max", "if_max", "vceo", "ic_max", "v_ref", "vka_max",
+    "ika_max", "ika_min", "tj_max", "rth_ja", "t_max",
+)
+V1_TABLES: Final = (
+    Table("catalog_meta", _V1, Column("key", String, primary_key=True), Column("value", String, nullable=False)),
+    Table("catalog_migration", _V1, Column("version", Integer, primary_key=True, autoincrement=False),
+          Column("name", String, nullable=False), Column("applied_at", String, nullable=False)),
+    Table("part", _V1, Column("id", Integer, primary_key=True),
+          *(Column(name, String if name in _V1_TEXT else Float, nullable=name not in ("part_number", "category"))
+            for name in _V1_PART_COLUMNS),
+          Index("ix_part_part_number", "part_number", unique=True), Index("ix_part_category", "category"),
+          Index("ix_part_subtype", "subtype"), Index("ix_part_category_subtype", "category", "subtype")),
+    Table("curve_point", _V1, Column("id", Integer, primary_key=True),
+          Column("part_id", Integer, ForeignKey("part.id", ondelete="CASCADE"), nullable=False, index=True),
+          Column("curve", String, nullable=False), Column("seq", Integer, nullable=False),
+          Column("x", Float, nullable=False), Column("y", Float, nullable=False),
+          UniqueConstraint("part_id", "curve", "seq", name="uq_curve_point")),
+)
 
 
 @dataclass(frozen=True)
@@ -39,12 +80,25 @@ class Migration:
 
 
 def _v1_create_tables(conn: Connection) -> None:
-    for table in TABLES:
+    for table in V1_TABLES:
         table.create(conn, checkfirst=True)
+
+
+def _add_column(conn: Connection, table: str, column: Column) -> None:
+    """``ALTER TABLE ... ADD COLUMN`` (nullable, no default): the same statement on SQLite and PostgreSQL,
+    with the column type compiled for the connection's dialect."""
+    kind = column.type.compile(dialect=conn.dialect)
+    preparer = conn.dialect.identifier_preparer
+    conn.execute(text(f"ALTER TABLE {preparer.quote(table)} ADD COLUMN {preparer.quote(column.name)} {kind}"))
+
+
+def _v2_part_updated_at(conn: Connection) -> None:
+    _add_column(conn, "part", Column("updated_at", String(32)))
 
 
 MIGRATIONS: Final[tuple[Migration, ...]] = (
     Migration(1, "create the part, curve_point, catalog_meta and catalog_migration tables", _v1_create_tables),
+    Migration(2, "add part.updated_at (when each part was last written, UTC)", _v2_part_updated_at),
 )
 
 #: The schema version this code reads and writes.
@@ -108,3 +162,24 @@ def migrate(conn: Connection, current: int | None) -> list[Migration]:
         else:
             conn.execute(update(META).where(META.c.key == "schema_version").values(value=version))
     return applied
+
+
+def backup_tables(conn: Connection, version: int, stamp: str) -> list[str]:
+    """Copy ``part`` and ``curve_point`` (every row, every column) into new tables
+    ``catalog_backup_v<version>_<stamp>_<table>`` inside ``conn``'s transaction; returns their names.
+
+    The backup of a database-server catalog before an upgrade (a SQLite catalog is copied as a
+    whole file instead).  Columns only, no indexes or constraints: the copy is for restoring by
+    hand, and index names would clash with the live tables'.
+    """
+    names = []
+    meta = MetaData()
+    for name in ("part", "curve_point"):
+        live = Table(name, meta, autoload_with=conn)
+        copy = Table(f"catalog_backup_v{version}_{stamp}_{name}", meta,
+                     *(Column(c.name, c.type, nullable=True) for c in live.columns))
+        copy.create(conn)
+        cols = [c.name for c in live.columns]
+        conn.execute(insert(copy).from_select(cols, select(*live.c)))
+        names.append(copy.name)
+    return names

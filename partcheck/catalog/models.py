@@ -5,8 +5,9 @@ Three layers, one source of truth:
 * :data:`FIELDS` — every exchange column (name, unit kind, the categories it belongs to, a
   one-line doc).  It drives import validation, the export column order and the docs.
 * :class:`Part`, :class:`CurvePoint`, :class:`CatalogMeta`, :class:`CatalogMigration` — the
-  SQLModel tables.  ``Part`` is one wide table (a column per exchange column, NULL when empty);
-  a test checks that its columns are exactly :data:`FIELDS`.
+  SQLModel tables.  ``Part`` is one wide table (a column per exchange column, NULL when empty,
+  plus the provenance column ``updated_at``); a test checks that its columns are exactly
+  :data:`FIELDS` and ``updated_at``.
 * :class:`PartRecord` — the plain, frozen view of one part that every other module receives.
 
 Values are SI floats (°C for temperatures, hours for life, fractions for percentages).
@@ -282,6 +283,9 @@ class Part(SQLModel, table=True):
     tj_max: float | None = None
     rth_ja: float | None = None
     t_max: float | None = None
+    #: Provenance, not an exchange column (schema version 2): when the part was last written,
+    #: UTC ISO 8601; NULL for parts written before version 2.  Not exported.
+    updated_at: str | None = Field(default=None, max_length=32)
 
 
 class CurvePoint(SQLModel, table=True):

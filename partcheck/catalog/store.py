@@ -5,9 +5,18 @@ without one it uses ``PARTCHECK_DB``, else the per-user file
 ``$XDG_DATA_HOME/partcheck/catalog.sqlite`` (``~/.local/share/partcheck/catalog.sqlite``).
 SQLite catalogs run in WAL mode with a 10 s busy timeout and foreign keys on; every write is
 one ``BEGIN IMMEDIATE`` transaction, so an import either writes everything or nothing.
+PostgreSQL catalogs run every transaction at ``REPEATABLE READ``: a reader sees one snapshot
+(the catalog before or after a concurrent import, never half of it), as SQLite's WAL gives.
+
+Concurrency: a write that finds the catalog busy (SQLite "database is locked" after the busy
+timeout, a PostgreSQL serialization failure, deadlock or lock timeout) or that collides on a
+unique key is rolled back and run again, at most :data:`WRITE_ATTEMPTS` times with exponential
+backoff from :data:`BACKOFF_S`; the re-run re-reads the catalog, so a real conflict ("added by
+someone else") then fails with a clear error, never a partial write.
 
 The code is dialect-neutral SQLAlchemy Core (PostgreSQL is the other target); the only
-SQLite-specific parts are the connection set-up hooks.
+dialect-specific parts are the connection set-up (hooks, isolation level, the collation that
+sorts in code-point order) and the form of the upgrade backup.
 """
 
 from __future__ import annotations
@@ -15,6 +24,12 @@ from __future__ import annotations
 import hashlib
 import io
 import os
+import random
+import sqlite3
+import time
+from collections.abc import Callable, Iterable
+from datetime import UTC, datetime
+from itertools import repeat, zip_longest
 from collections import defaultdict
 from collections.abc import Iterator
 from contextlib import contextmanager
@@ -31,7 +46,7 @@ from sqlalchemy.orm import Session
 from ..errors import CatalogError, CatalogInputError, NotFoundError
 from . import io as cio
 from . import validate as cval
-from .migrations import CURRENT_VERSION, check_version, migrate, schema_version
+from .migrations import CURRENT_VERSION, backup_tables, check_version, migrate, schema_version
 from .models import CATEGORIES, CATEGORY_FIELDS, FIELDS, Curve, CurvePoint, Part, PartRecord
 
 PART = Part.__table__
@@ -40,6 +55,37 @@ _COLUMNS = [PART.c[name] for name in FIELDS]
 
 #: SQLite busy timeout [s]: how long a writer waits for another writer before giving up.
 BUSY_TIMEOUT_S = 10.0
+
+#: How many times a write is tried when the catalog is busy or changed under it (first try included).
+WRITE_ATTEMPTS = 5
+#: First wait between tries [s]; doubled after each, with random jitter (0.5x to 1.5x).
+BACKOFF_S = 0.2
+
+#: Rows per chunk when streaming parts (iter_parts, export, copy).
+CHUNK = 2000
+
+#: PostgreSQL SQLSTATEs worth a retry: serialization_failure, deadlock_detected, lock_not_available.
+_RETRY_SQLSTATES = frozenset({"40001", "40P01", "55P03"})
+
+#: Per dialect, the collation under which the database sorts text in code-point order (as Python does).
+_CODEPOINT_COLLATION = {"sqlite": "BINARY", "postgresql": "C"}
+
+
+class CatalogBusyError(CatalogError):
+    """The catalog stayed busy (locked by another writer) through every retry; nothing was written."""
+
+    exit_code = 1
+
+
+def _is_busy(orig: BaseException | None) -> bool:
+    if getattr(orig, "sqlstate", None) in _RETRY_SQLSTATES:
+        return True
+    name = str(getattr(orig, "sqlite_errorname", ""))
+    return name.startswith(("SQLITE_BUSY", "SQLITE_LOCKED")) or "database is locked" in str(orig)
+
+
+def _now() -> str:
+    return datetime.now(UTC).isoformat(timespec="seconds")
 
 
 def default_location() -> Path:
@@ -74,6 +120,23 @@ class ImportReport:
 
 def _n(count: int, noun: str) -> str:
     return f"{count} {noun}{'' if count == 1 else 's'}"
+
+
+@dataclass(frozen=True)
+class CopyReport:
+    """What a copy wrote, verified: the canonical exports of source and target were identical."""
+
+    source: str
+    target: str
+    parts: int
+    curve_points: int
+    export_bytes: int
+    schema_version: int
+
+    def __str__(self) -> str:
+        return (f"copied {_n(self.parts, 'part')}, {_n(self.curve_points, 'curve point')} from {self.source} to "
+                f"{self.target} (schema version {self.schema_version}); exports identical "
+                f"({self.export_bytes} bytes of JSON)")
 
 
 @dataclass(frozen=True)
@@ -120,7 +183,12 @@ def open_catalog(url: str | os.PathLike[str] | None = None, *, create: bool = Tr
             elif not sqlite_path.parent.is_dir():
                 raise CatalogError(f"cannot create {location}: the directory {sqlite_path.parent} does not exist")
     try:
-        kwargs = {"connect_args": {"timeout": BUSY_TIMEOUT_S}} if sa_url.get_backend_name() == "sqlite" else {}
+        backend = sa_url.get_backend_name()
+        kwargs: dict = {}
+        if backend == "sqlite":
+            kwargs = {"connect_args": {"timeout": BUSY_TIMEOUT_S}}
+        elif backend == "postgresql":
+            kwargs = {"isolation_level": "REPEATABLE READ", "pool_pre_ping": True}
         engine = create_engine(sa_url, **kwargs)
     except (ArgumentError, NoSuchModuleError, ImportError) as exc:
         raise CatalogError(f"cannot use the database URL {location}: {exc}") from None
@@ -158,6 +226,10 @@ class Catalog:
         self.location = location
         self.path = path
         self.schema_version: int | None = None
+        #: Set when opening upgraded the catalog: the version it had, and where the backup is.
+        self.upgraded_from: int | None = None
+        self.backup: str | None = None
+        self._collation = _CODEPOINT_COLLATION.get(engine.dialect.name)
 
     # ---- plumbing --------------------------------------------------------------------------
 
@@ -177,21 +249,46 @@ class Catalog:
     @contextmanager
     def _conn(self, write: bool) -> Iterator:
         try:
-            with self._engine.connect() as conn:
+            connection = self._engine.connect()
+        except DBAPIError as exc:
+            if self.path is None:
+                first = str(exc.orig).strip().splitlines()[0] if str(exc.orig).strip() else type(exc.orig).__name__
+                raise _failure(f"cannot connect to {self.location}: is the server running, and are the host, port, "
+                               f"user, password and database name right? ({first})") from None
+            raise _failure(f"cannot open {self.location}: {exc.orig}") from None
+        try:
+            with connection as conn:
                 if write:
                     conn = conn.execution_options(partcheck_write=True)
                 with conn.begin():
                     yield conn
         except IntegrityError as exc:
-            raise _failure(f"{self.location}: the catalog changed during the write and nothing was written "
-                           f"({exc.orig}); try again") from None
+            busy = CatalogBusyError(f"{self.location}: the catalog changed during the write and nothing was written "
+                                    f"({str(exc.orig).strip()}); try again")
+            raise busy from None
         except DBAPIError as exc:
-            text = str(exc.orig)
+            text = str(exc.orig).strip()
+            if _is_busy(exc.orig):
+                raise CatalogBusyError(f"{self.location}: the catalog is busy (another process is writing: {text}); "
+                                       "nothing was written, try again") from None
             if "file is not a database" in text or "not a database" in text:
                 raise CatalogError(f"{self.location} is not a partcheck catalog (not an SQLite database)") from None
             raise _failure(f"{self.location}: database error: {text}") from None
         except SQLAlchemyError as exc:
             raise _failure(f"{self.location}: database error: {exc}") from None
+
+    def _retrying(self, step: Callable[[], object]):
+        """Run ``step`` (one whole write transaction); run it again while the catalog is busy."""
+        delay = BACKOFF_S
+        for attempt in range(1, WRITE_ATTEMPTS + 1):
+            try:
+                return step()
+            except CatalogBusyError as exc:
+                if attempt == WRITE_ATTEMPTS:
+                    raise CatalogBusyError(f"{exc} (gave up after {WRITE_ATTEMPTS} tries)") from None
+            time.sleep(delay * (0.5 + random.random()))
+            delay *= 2
+        raise AssertionError("unreachable")  # pragma: no cover
 
     def _open(self, create: bool) -> None:
         with self._conn(write=False) as conn:
@@ -201,11 +298,63 @@ class Catalog:
         if version is None and not create:
             raise CatalogError(f"{self.location} is an empty database, not a catalog yet; "
                                "create it with `partcheck catalog init`")
-        if version is None or version < CURRENT_VERSION:
+        if version is None:
             self.init()
+        elif version < CURRENT_VERSION:
+            self._upgrade(version)
         else:
             self.schema_version = version
         self._ensure_wal()
+
+    def _upgrade(self, version: int) -> None:
+        """Bring a catalog of an older schema to the current one, after a backup.
+
+        SQLite: the whole file is first copied with SQLite's online backup API to
+        ``<name>.v<old>-<UTC time>.bak`` beside it.  A database server: ``part`` and ``curve_point``
+        are copied into ``catalog_backup_v<old>_<time>_part`` / ``..._curve_point`` in the same
+        transaction as the migration.  Either way the migration is one transaction.
+        """
+        stamp = datetime.now(UTC).strftime("%Y%m%dT%H%M%SZ")
+        backup_file: Path | None = None
+        if self.path is not None:
+            backup_file = self.path.with_name(f"{self.path.name}.v{version}-{stamp}.bak")
+            self._backup_sqlite(backup_file)
+
+        def step() -> list[str] | None:
+            with self._conn(write=True) as conn:
+                current = schema_version(conn, self.location)
+                if current is None or current >= CURRENT_VERSION:  # someone else upgraded it meanwhile
+                    if current is not None:
+                        check_version(current, self.location)
+                    return None
+                tables = backup_tables(conn, current, stamp.lower()) if backup_file is None else []
+                migrate(conn, current)
+                return tables
+
+        tables = self._retrying(step)
+        self.schema_version = CURRENT_VERSION
+        if tables is None:
+            if backup_file is not None:
+                backup_file.unlink(missing_ok=True)
+            return
+        self.upgraded_from = version
+        self.backup = str(backup_file) if backup_file is not None else ", ".join(tables)
+
+    def _backup_sqlite(self, target: Path) -> None:
+        assert self.path is not None
+        try:
+            source = sqlite3.connect(self.path)
+            try:
+                copy = sqlite3.connect(target)
+                try:
+                    source.backup(copy)
+                finally:
+                    copy.close()
+            finally:
+                source.close()
+        except sqlite3.Error as exc:
+            raise _failure(f"{self.location}: cannot back up the catalog to {target} before upgrading it "
+                           f"({exc}); nothing was changed") from None
 
     def _ensure_wal(self) -> None:
         if self._engine.dialect.name != "sqlite" or self.path is None:
@@ -223,12 +372,23 @@ class Catalog:
             raw.close()
 
     def init(self) -> None:
-        """Create the tables (or apply missing migrations); safe to run on an existing catalog."""
-        with self._conn(write=True) as conn:
-            version = schema_version(conn, self.location)
-            if version is not None:
-                check_version(version, self.location)
-            migrate(conn, version)
+        """Create the tables (or apply missing migrations); safe to run on an existing catalog.
+
+        An existing catalog of an older schema is upgraded after a backup (see :meth:`_upgrade`).
+        """
+        def step() -> int | None:
+            with self._conn(write=True) as conn:
+                version = schema_version(conn, self.location)
+                if version is not None:
+                    check_version(version, self.location)
+                    if version < CURRENT_VERSION:
+                        return version
+                migrate(conn, version)
+                return None
+
+        older = self._retrying(step)
+        if older is not None:
+            self._upgrade(older)
         self.schema_version = CURRENT_VERSION
 
     # ---- writing ---------------------------------------------------------------------------
@@ -259,7 +419,12 @@ class Catalog:
         return self._write(validated, update=update, method=method)
 
     def _write(self, v: cval.Validated, *, update: bool, method: str = "bulk") -> ImportReport:
+        """Write a validated import in one transaction, retried while the catalog is busy."""
+        return self._retrying(lambda: self._write_once(v, update=update, method=method))
+
+    def _write_once(self, v: cval.Validated, *, update: bool, method: str = "bulk") -> ImportReport:
         pns = v.columns["part_number"]
+        stamp = _now()
         with self._conn(write=True) as conn:
             existing = dict(conn.execute(select(PART.c.part_number, PART.c.id)).all())
             new = [i for i, pn in enumerate(pns) if pn not in existing]
@@ -268,11 +433,11 @@ class Catalog:
                 raise _failure(f"{v.file or self.location}: part {pns[old[0]]!r} was added to the catalog by "
                                "someone else during this import; nothing was written, try again")
             if method == "orm":
-                self._insert_orm(conn, v.records(new))
+                self._insert_orm(conn, v.records(new), stamp)
             else:
-                self._insert_bulk(conn, v, new)
+                self._insert_bulk(conn, v, new, stamp)
             if old:
-                self._update_bulk(conn, v.records(old))
+                self._update_bulk(conn, v.records(old), stamp)
             points = 0
             if v.curves is not None:
                 ids = dict(conn.execute(select(PART.c.part_number, PART.c.id)).all())
@@ -288,7 +453,7 @@ class Catalog:
         return ImportReport(v.file, len(new), len(old), points, v.curves_file, method)
 
     @staticmethod
-    def _insert_bulk(conn, v: cval.Validated, indices: list[int]) -> None:
+    def _insert_bulk(conn, v: cval.Validated, indices: list[int], stamp: str) -> None:
         # One executemany per category, binding only that category's columns (the rest are NULL).
         by_category: dict[str, list[int]] = defaultdict(list)
         cats = v.columns["category"]
@@ -301,33 +466,37 @@ class Catalog:
             else:
                 take = itemgetter(*group) if len(group) > 1 else (lambda col, i=group[0]: (col[i],))
                 picked = [take(v.columns[c]) for c in cols]
-            _executemany(conn, PART, cols, list(zip(*picked)))
+            _executemany(conn, PART, (*cols, "updated_at"), list(zip(*picked, repeat(stamp))))
 
     @staticmethod
-    def _insert_orm(conn, records: list[dict]) -> None:
+    def _insert_orm(conn, records: list[dict], stamp: str) -> None:
         # Row by row through the ORM (one INSERT per part): the slow path the benchmark compares with.
         session = Session(bind=conn)
         for r in records:
-            session.add(Part(**r))
+            session.add(Part(**r, updated_at=stamp))
             session.flush()
         session.close()
 
     @staticmethod
-    def _update_bulk(conn, records: list[dict]) -> None:
+    def _update_bulk(conn, records: list[dict], stamp: str) -> None:
         names = [n for n in FIELDS if n != "part_number"]
         stmt = (update(PART).where(PART.c.part_number == bindparam("k_part_number"))
-                .values({n: bindparam(f"k_{n}") for n in names}))
-        conn.execute(stmt, [{f"k_{n}": r[n] for n in FIELDS} for r in records])
+                .values({**{n: bindparam(f"k_{n}") for n in names}, "updated_at": bindparam("k_updated_at")}))
+        conn.execute(stmt, [{**{f"k_{n}": r[n] for n in FIELDS}, "k_updated_at": stamp} for r in records])
 
     def remove(self, part_number: str) -> PartRecord:
         """Remove a part and its curves; returns what was removed.  NotFoundError when absent."""
         record = self.get(part_number)
-        with self._conn(write=True) as conn:
-            pid = conn.execute(select(PART.c.id).where(PART.c.part_number == part_number)).scalar()
-            if pid is None:
-                raise self._not_found(part_number)
-            conn.execute(delete(POINT).where(POINT.c.part_id == pid))
-            conn.execute(delete(PART).where(PART.c.id == pid))
+
+        def step() -> None:
+            with self._conn(write=True) as conn:
+                pid = conn.execute(select(PART.c.id).where(PART.c.part_number == part_number)).scalar()
+                if pid is None:
+                    raise self._not_found(part_number)
+                conn.execute(delete(POINT).where(POINT.c.part_id == pid))
+                conn.execute(delete(PART).where(PART.c.id == pid))
+
+        self._retrying(step)
         return record
 
     # ---- reading ---------------------------------------------------------------------------
@@ -359,6 +528,54 @@ class Catalog:
             out.append(fast(dict(zip(names, row)), {k: tuple(v) for k, v in c.items()} if c else None))
         out.sort(key=lambda r: r.part_number)  # code-point order on every database
         return out
+
+    def updated_at(self, part_number: str) -> str | None:
+        """When the part was last written (UTC, ISO 8601); None when written before schema version 2."""
+        with self._conn(write=False) as conn:
+            found = conn.execute(select(PART.c.id, PART.c.updated_at).where(PART.c.part_number == part_number)).first()
+        if found is None:
+            raise self._not_found(part_number)
+        return found[1]
+
+    def iter_parts(self, chunk: int = CHUNK) -> Iterator[PartRecord]:
+        """Every part with its curves, sorted by part number, streamed ``chunk`` rows at a time.
+
+        Memory stays bounded by the chunk whatever the size of the catalog; all rows come from
+        one read transaction (one snapshot), like :meth:`parts`.  Close the iterator (or read it
+        to the end) to end the transaction.
+        """
+        with self._conn(write=False) as conn:
+            yield from self._iter_records(conn, chunk)
+
+    def _order(self):
+        pn = PART.c.part_number
+        return pn.collate(self._collation) if self._collation else pn
+
+    def _iter_records(self, conn, chunk: int = CHUNK) -> Iterator[PartRecord]:
+        if chunk < 1:
+            raise CatalogInputError(f"chunk must be at least 1, got {chunk}", key="chunk")
+        streaming = conn.execution_options(stream_results=True, yield_per=chunk)
+        order = self._order()
+        rows = streaming.execute(select(*_COLUMNS, PART.c.id).order_by(order))
+        points = streaming.execute(
+            select(POINT.c.part_id, POINT.c.curve, POINT.c.x, POINT.c.y).select_from(POINT.join(PART))
+            .order_by(order, POINT.c.curve, POINT.c.seq))
+        names = list(FIELDS)
+        fast = PartRecord._fast
+        pending = next(points, None)
+        try:
+            for row in rows:
+                pid = row[-1]
+                curves: dict[str, list] | None = None
+                while pending is not None and pending[0] == pid:
+                    if curves is None:
+                        curves = {}
+                    curves.setdefault(pending[1], []).append((pending[2], pending[3]))
+                    pending = next(points, None)
+                yield fast(dict(zip(names, row)), {k: tuple(v) for k, v in curves.items()} if curves else None)
+        finally:
+            rows.close()
+            points.close()
 
     def parts(self, category: str | None = None, subtype: str | None = None,
               min_ratings: dict[str, float | str] | None = None) -> list[PartRecord]:
@@ -457,34 +674,97 @@ class Catalog:
             fmt = suffix[1:]
         if fmt not in ("csv", "json"):
             raise CatalogInputError(f"unknown export format {fmt!r}; expected csv or json", key="format")
-        records = self.parts()
-        points = sum(len(p) for r in records for p in r.curves.values())
-        if fmt == "json":
-            text = cio.to_json(records, self.schema_version or CURRENT_VERSION)
+        version = self.schema_version or CURRENT_VERSION
+        with self._conn(write=False) as conn:  # one snapshot, streamed: memory does not grow with the catalog
+            counter = _Counter(self._iter_records(conn))
+            if fmt == "json":
+                if is_path:
+                    _write_atomic(Path(target), cio.iter_json(counter, version))  # type: ignore[arg-type]
+                else:
+                    for piece in cio.iter_json(counter, version):
+                        target.write(piece)  # type: ignore[union-attr]
+                return ExportReport(counter.parts, counter.points)
             if is_path:
-                _write_atomic(Path(target), text)  # type: ignore[arg-type]
-            else:
-                target.write(text)  # type: ignore[union-attr]
-            return ExportReport(len(records), points)
-        main = io.StringIO()
-        cio.write_csv(records, main)
-        if is_path:
-            side = cio.curves_path(target)  # type: ignore[arg-type]
-            curves = io.StringIO()
-            cio.write_curves_csv(records, curves)
-            _write_atomic(Path(target), main.getvalue())  # type: ignore[arg-type]
-            _write_atomic(side, curves.getvalue())
-            return ExportReport(len(records), points, str(side))
-        target.write(main.getvalue())  # type: ignore[union-attr]
-        if curves_stream is not None:
-            cio.write_curves_csv(records, curves_stream)
-            return ExportReport(len(records), points)
-        return ExportReport(len(records), 0, None, points)
+                side = cio.curves_path(target)  # type: ignore[arg-type]
+                with _atomic_pair(Path(target), side) as (main, curves):  # type: ignore[arg-type]
+                    _write_csv_pair(counter, main, curves)
+                return ExportReport(counter.parts, counter.points, str(side))
+            if curves_stream is not None:
+                _write_csv_pair(counter, target, curves_stream)  # type: ignore[arg-type]
+                return ExportReport(counter.parts, counter.points)
+            cio.write_csv(counter, target)  # type: ignore[arg-type]
+            return ExportReport(counter.parts, 0, None, counter.points)
 
     def snapshot_hash(self) -> str:
         """sha256 (hex) of the canonical JSON export: equal hashes mean equal catalogs."""
-        text = cio.to_json(self.parts(), self.schema_version or CURRENT_VERSION)
-        return hashlib.sha256(text.encode("utf-8")).hexdigest()
+        digest = hashlib.sha256()
+        with self._conn(write=False) as conn:
+            for piece in cio.iter_json(self._iter_records(conn), self.schema_version or CURRENT_VERSION):
+                digest.update(piece.encode("utf-8"))
+        return digest.hexdigest()
+
+    # ---- copy ------------------------------------------------------------------------------
+
+    def copy_to(self, target: str | os.PathLike[str] | Catalog, *, replace: bool = False,
+                progress: Callable[[int, int], None] | None = None) -> CopyReport:
+        """Copy every part and curve into the catalog ``target`` (path, URL or open catalog) in one transaction.
+
+        ``target`` must be empty unless ``replace``, which first deletes everything in it.  Before
+        committing, the canonical JSON exports of this catalog and of the written target (inside
+        the copy's transaction) are compared piece by piece; any difference rolls the copy back
+        with a :class:`CatalogError`.  ``progress(done, total)`` is called as parts and points go in.
+        """
+        dest = target if isinstance(target, Catalog) else open_catalog(target, create=True)
+        try:
+            if dest.location == self.location:
+                raise CatalogError(f"cannot copy {self.location} onto itself; give another --to")
+            return dest._retrying(lambda: dest._receive(self, replace, progress))
+        finally:
+            if dest is not target:
+                dest.close()
+
+    def _receive(self, source: Catalog, replace: bool, progress) -> CopyReport:
+        cols = (*FIELDS, "updated_at")
+        with self._conn(write=True) as conn, source._conn(write=False) as sconn:
+            have = int(conn.execute(select(func.count()).select_from(PART)).scalar() or 0)
+            if have and not replace:
+                raise CatalogError(f"{self.location} already holds {_n(have, 'part')}; copy into an empty catalog, "
+                                   "or give --replace to delete them first")
+            if replace:
+                conn.execute(delete(POINT))
+                conn.execute(delete(PART))
+            n_parts = int(sconn.execute(select(func.count()).select_from(PART)).scalar() or 0)
+            n_points = int(sconn.execute(select(func.count()).select_from(POINT)).scalar() or 0)
+            total = n_parts + n_points
+            done = 0
+            streaming = sconn.execution_options(stream_results=True, yield_per=CHUNK)
+            result = streaming.execute(select(*(PART.c[c] for c in cols)).order_by(PART.c.id))
+            for batch in result.partitions(CHUNK):
+                _executemany(conn, PART, cols, [tuple(r) for r in batch])
+                done += len(batch)
+                if progress:
+                    progress(done, total)
+            ids = dict(conn.execute(select(PART.c.part_number, PART.c.id)).all())
+            result = streaming.execute(
+                select(PART.c.part_number, POINT.c.curve, POINT.c.seq, POINT.c.x, POINT.c.y)
+                .select_from(POINT.join(PART)).order_by(POINT.c.id))
+            for batch in result.partitions(CHUNK):
+                _executemany(conn, POINT, ("part_id", "curve", "seq", "x", "y"),
+                             [(ids[pn], curve, seq, x, y) for pn, curve, seq, x, y in batch])
+                done += len(batch)
+                if progress:
+                    progress(done, total)
+            del ids
+            # Verify before committing: the two canonical exports, compared piece by piece.
+            mine = cio.iter_json(self._iter_records(conn), CURRENT_VERSION)
+            theirs = cio.iter_json(source._iter_records(sconn), CURRENT_VERSION)
+            size = 0
+            for a, b in zip_longest(mine, theirs):
+                if a != b:
+                    raise _failure(f"copying {source.location} to {self.location}: the exports differ after the copy "
+                                   f"(near byte {size}); nothing was written")
+                size += len(a.encode("utf-8"))
+        return CopyReport(source.location, self.location, n_parts, n_points, size, source.schema_version or 0)
 
 
 def _executemany(conn, table, cols: tuple[str, ...] | list[str], rows: list[tuple]) -> None:
@@ -499,19 +779,78 @@ def _executemany(conn, table, cols: tuple[str, ...] | list[str], rows: list[tupl
     conn.exec_driver_sql(compiled.string, params)
 
 
-def _write_atomic(path: Path, text: str) -> None:
-    """Write ``text`` to ``path`` through a temporary file, so a failed export leaves no half file."""
+class _Counter:
+    """Passes records through, counting parts and curve points on the way."""
+
+    def __init__(self, records: Iterable[PartRecord]) -> None:
+        self._records = records
+        self.parts = 0
+        self.points = 0
+
+    def __iter__(self) -> Iterator[PartRecord]:
+        for record in self._records:
+            self.parts += 1
+            self.points += sum(len(p) for p in record.curves.values())
+            yield record
+
+
+def _write_csv_pair(records: Iterable[PartRecord], main: IO[str], curves: IO[str]) -> None:
+    """The catalog CSV and its curve side file in one pass over the records."""
+    import csv
+
+    from .models import CURVE_COLUMNS, CURVES
+
+    writer = csv.writer(curves, lineterminator="\n")
+    writer.writerow(CURVE_COLUMNS)
+
+    def parts() -> Iterator[PartRecord]:
+        for record in records:
+            for name in CURVES:
+                for x, y in record.curves.get(name, ()):
+                    writer.writerow([record.part_number, name, repr(float(x)), repr(float(y))])
+            yield record
+
+    cio.write_csv(parts(), main)
+
+
+def _check_folder(path: Path) -> None:
     if not path.parent.is_dir():
         raise CatalogInputError(f"cannot write {path}: the directory {path.parent} does not exist", file=path)
+
+
+@contextmanager
+def _atomic_pair(first: Path, second: Path) -> Iterator[tuple[IO[str], IO[str]]]:
+    """Two files written through temporary files and renamed into place only when both are complete."""
+    _check_folder(first)
+    tmps = [p.with_name(f".{p.name}.partcheck-tmp") for p in (first, second)]
+    try:
+        with open(tmps[0], "w", encoding="utf-8", newline="") as a, open(tmps[1], "w", encoding="utf-8",
+                                                                            newline="") as b:
+            yield a, b
+        os.replace(tmps[0], first)
+        os.replace(tmps[1], second)
+    except OSError as exc:
+        raise CatalogInputError(f"cannot write the file: {exc.strerror or exc}", file=first) from None
+    finally:
+        for tmp in tmps:
+            tmp.unlink(missing_ok=True)
+
+
+def _write_atomic(path: Path, text: str | Iterable[str]) -> None:
+    """Write ``text`` (or its pieces) to ``path`` through a temporary file, so a failed export leaves no half file."""
+    _check_folder(path)
     tmp = path.with_name(f".{path.name}.partcheck-tmp")
     try:
         with open(tmp, "w", encoding="utf-8", newline="") as f:
-            f.write(text)
+            for piece in [text] if isinstance(text, str) else text:
+                f.write(piece)
         os.replace(tmp, path)
     except OSError as exc:
-        tmp.unlink(missing_ok=True)
         raise CatalogInputError(f"cannot write the file: {exc.strerror or exc}", file=path) from None
+    finally:
+        tmp.unlink(missing_ok=True)
 
 
 # Curve type re-exported for callers that annotate with it.
-__all__ = ["BUSY_TIMEOUT_S", "Catalog", "Curve", "ExportReport", "ImportReport", "default_location", "open_catalog"]
+__all__ = ["BUSY_TIMEOUT_S", "Catalog", "CatalogBusyError", "CopyReport", "Curve", "ExportReport", "ImportReport",
+           "default_location", "open_catalog"]

@@ -11,6 +11,7 @@ from pathlib import Path
 from typer.main import get_command
 from typer.testing import CliRunner
 
+from partcheck.catalog.migrations import CURRENT_VERSION
 from partcheck.cli import app
 
 from .conftest import SMALL
@@ -45,7 +46,7 @@ def test_init_add_show_list_find_remove(tmp_path):
     db = tmp_path / "c.sqlite"
     result = cli("init", db=db)
     assert result.exit_code == 0
-    assert result.stdout == f"catalog ready at {db} (schema version 1, 0 parts)\n"
+    assert result.stdout == f"catalog ready at {db} (schema version {CURRENT_VERSION}, 0 parts)\n"
     result = cli("add", "SW-X1", "--category", "switch", "--subtype", "mosfet", "--description", "demo switch",
                  "--set", "vds_max=100V", "--set", "rds_on=30m", db=db)
     assert result.exit_code == 0 and result.stdout == f"added SW-X1 (switch) to {db}\n"
@@ -173,10 +174,10 @@ def test_subprocess_export_round_trip_and_newer_schema(tmp_path):
     import sqlite3
 
     con = sqlite3.connect(other)
-    con.execute("update catalog_meta set value='2' where key='schema_version'")
+    con.execute(f"update catalog_meta set value='{CURRENT_VERSION + 1}' where key='schema_version'")
     con.commit()
     con.close()
     done = _run("list", env_db=other)
     assert done.returncode == 2
-    assert done.stderr == (f"error: {other} has catalog schema version 2, newer than version 1 that partcheck "
-                           "0.1.0 understands; upgrade partcheck to use this catalog\n")
+    assert done.stderr == (f"error: {other} has catalog schema version {CURRENT_VERSION + 1}, newer than version "
+                           f"{CURRENT_VERSION} that partcheck 0.1.0 understands; upgrade partcheck to use this catalog\n")

@@ -184,7 +184,7 @@ def test_nan_inf_and_other_oddities(tmp_path, catalog):
     }
 
 
-def test_bad_curve_file_is_reported_in_its_own_file(small_copy, db_path):
+def test_bad_curve_file_is_reported_in_its_own_file(small_copy, catalog_url):
     side = small_copy.with_name("small.curves.csv")
     side.write_text(
         "part_number,curve,x,y\n"
@@ -196,7 +196,7 @@ def test_bad_curve_file_is_reported_in_its_own_file(small_copy, db_path):
         "TST-C-470U-35V,ripple_frq,1k,1\n"         # line 7: unknown curve
         "TST-R-4K7-0W25,power_derating,70,-1\n"    # line 8: negative y
     )
-    with open_catalog(db_path) as cat:
+    with open_catalog(catalog_url) as cat:
         with pytest.raises(CatalogInputError) as info:
             cat.import_file(small_copy)
         assert cat.count() == 0

@@ -9,6 +9,7 @@ import random
 import pytest
 
 from partcheck.catalog import open_catalog
+from partcheck.catalog.migrations import CURRENT_VERSION
 from partcheck.catalog.models import CATEGORY_FIELDS, FIELDS
 from partcheck.errors import CatalogInputError
 
@@ -48,7 +49,7 @@ def test_export_layout(tmp_path, catalog):
     stream = io.StringIO()
     catalog.export(stream, "json")
     doc = json.loads(stream.getvalue())
-    assert doc["format"] == "partcheck-catalog" and doc["schema_version"] == 1
+    assert doc["format"] == "partcheck-catalog" and doc["schema_version"] == CURRENT_VERSION
     first = doc["parts"][0]
     assert first["part_number"] == "TST-C-10U-25V"
     assert list(first) == [*CATEGORY_FIELDS["capacitor"], "curves"]
@@ -56,10 +57,10 @@ def test_export_layout(tmp_path, catalog):
     assert first["esl"] is None  # empty stays null, never 0
 
 
-def test_awkward_floats_and_text_round_trip_exactly(tmp_path):
+def test_awkward_floats_and_text_round_trip_exactly(tmp_path, catalog_url):
     rng = random.Random(7)
     values = [rng.uniform(1e-13, 1e-3) for _ in range(20)] + [0.1 + 0.2, 1 / 3, 4.7e-9, 1e300, 5e-324 * 1e10]
-    with open_catalog(tmp_path / "a.sqlite") as cat:
+    with open_catalog(catalog_url) as cat:
         for i, v in enumerate(values):
             cat.add({"part_number": f"F{i:02d}", "category": "capacitor", "capacitance": v,
                      "description": f'quote " comma, newline\nand ±µΩ {i}', "t_max": -40.0 + i})
@@ -111,13 +112,25 @@ def test_json_from_a_newer_schema_is_refused(tmp_path, catalog):
     stream = io.StringIO()
     catalog.export(stream, "json")
     newer = tmp_path / "newer.json"
-    newer.write_text(stream.getvalue().replace('"schema_version": 1', '"schema_version": 3'), encoding="utf-8")
+    newer.write_text(stream.getvalue().replace(f'"schema_version": {CURRENT_VERSION}',
+                                               f'"schema_version": {CURRENT_VERSION + 1}'), encoding="utf-8")
     with pytest.raises(CatalogInputError) as info:
         catalog.import_file(newer, update=True)
-    assert str(info.value) == (f"{newer}, key 'schema_version': was written with catalog schema version 3, newer "
-                               "than version 1 that this partcheck understands; upgrade partcheck to import it")
+    assert str(info.value) == (f"{newer}, key 'schema_version': was written with catalog schema version "
+                               f"{CURRENT_VERSION + 1}, newer than version {CURRENT_VERSION} that this partcheck "
+                               "understands; upgrade partcheck to import it")
 
 
 def test_export_into_a_missing_folder(tmp_path, catalog):
     with pytest.raises(CatalogInputError, match="the directory .*nowhere does not exist"):
         catalog.export(tmp_path / "nowhere" / "x.csv")
+
+
+def test_json_export_keeps_bracketed_numbers_in_text_verbatim(tmp_path, catalog_url):
+    # The exporter folds each curve point onto one line; text that looks like a point must stay as typed.
+    with open_catalog(catalog_url) as cat:
+        cat.add({"part_number": "[ 1, 2 ]", "category": "resistor", "description": "pair [ 0.5,  7 ] and [\t1, 2 ]"})
+        cat.export(tmp_path / "a.json")
+    doc = json.loads((tmp_path / "a.json").read_text(encoding="utf-8"))
+    assert doc["parts"][0]["part_number"] == "[ 1, 2 ]"
+    assert doc["parts"][0]["description"] == "pair [ 0.5,  7 ] and [\t1, 2 ]"
