@@ -149,6 +149,9 @@ def catalog_init(db: _CatDb = None) -> None:
 
     with open_catalog(db, create=True) as cat:
         cat.init()
+        if cat.upgraded_from is not None:
+            out.print(f"upgraded {cat.location} from schema version {cat.upgraded_from} to {cat.schema_version}; "
+                      f"backup: {cat.backup}", markup=False)
         out.print(f"catalog ready at {cat.location} (schema version {cat.schema_version}, "
                   f"{cat.count()} parts)", markup=False)
 
@@ -263,6 +266,7 @@ def catalog_show(
     _cat_choice(format, ("table", "json"), "--format")
     with open_catalog(db, create=False) as cat:
         record = cat.get(part)
+        written = cat.updated_at(part)
     if format == "json":
         _cat_json(part_to_json(record))
         return
@@ -274,6 +278,7 @@ def catalog_show(
         spec = CURVES[name]
         text = ", ".join(f"{format_quantity(x, spec.x_kind)} → {y:g}" for x, y in points)
         out.print(f"curve {name} ({spec.doc}): {text}", markup=False)
+    out.print(f"last written: {written or 'before schema version 2 (not recorded)'}", markup=False)
 
 
 @catalog_app.command("find")
@@ -317,6 +322,46 @@ def catalog_remove(
     with open_catalog(db, create=False) as cat:
         record = cat.remove(part)
         out.print(f"removed {record.part_number} from {cat.location}", markup=False)
+
+
+def _cat_progress(label: str):
+    """A progress bar on standard error for long catalog steps; None (no bar) unless stderr is a terminal."""
+    from contextlib import contextmanager
+
+    @contextmanager
+    def bar():
+        if not sys.stderr.isatty():
+            yield None
+            return
+        from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
+
+        with Progress(TextColumn(label), BarColumn(), MofNCompleteColumn(), TimeRemainingColumn(), console=err,
+                      transient=True) as progress:
+            task = progress.add_task(label, total=None)
+            yield lambda done, total: progress.update(task, completed=done, total=total)
+
+    return bar()
+
+
+@catalog_app.command("copy")
+def catalog_copy(
+    to: Annotated[str, typer.Option("--to", help="The target catalog: a file path (SQLite) or a database URL such "
+                                    "as postgresql+psycopg://USER@HOST/partcheck; created when missing, and it must "
+                                    "be empty unless --replace.", show_default=False)],
+    replace: Annotated[bool, typer.Option("--replace", help="Delete every part already in the target first "
+                                          "(in the same transaction as the copy).")] = False,
+    db: _CatDb = None,
+) -> None:
+    """Copy every part and curve into another catalog (SQLite to PostgreSQL or back) in one transaction.
+
+    Before committing, the canonical exports of both catalogs are compared; any difference rolls the
+    copy back and nothing is written.
+    """
+    from .catalog import open_catalog
+
+    with open_catalog(db, create=False) as cat, _cat_progress("copying parts and curves") as progress:
+        report = cat.copy_to(to, replace=replace, progress=progress)
+    out.print(str(report), markup=False)
 
 
 # ---- BOM matching (partcheck match) -----------------------------------------------------------

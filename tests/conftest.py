@@ -74,13 +74,19 @@ class _PostgresServer:
     def url(self, database: str = "postgres") -> str:
         return f"postgresql+psycopg://partcheck@127.0.0.1:{self.port}/{database}"
 
-    def new_database(self) -> str:
-        """Create an empty database and return its SQLAlchemy URL."""
+    def new_database(self, icu_locale: str | None = None) -> str:
+        """Create an empty database and return its SQLAlchemy URL.
+
+        ``icu_locale`` (such as ``"en-US"``) gives the database a natural-language collation, as a
+        team server usually has, instead of the cluster's C collation.
+        """
         import psycopg
 
         name = f"t{os.getpid()}_{next(self._names)}"
+        options = (f" TEMPLATE template0 LOCALE_PROVIDER icu ICU_LOCALE '{icu_locale}' LOCALE 'C.UTF-8'"
+                   if icu_locale else "")
         with psycopg.connect(f"host=127.0.0.1 port={self.port} user=partcheck dbname=postgres", autocommit=True) as conn:
-            conn.execute(f'CREATE DATABASE "{name}"')
+            conn.execute(f'CREATE DATABASE "{name}"{options}')
         return self.url(name)
 
 
@@ -106,7 +112,11 @@ def postgres_url(postgres_server) -> str:
 
 @pytest.fixture(params=["sqlite", pytest.param("postgresql", marks=pytest.mark.postgres)])
 def catalog_url(request, tmp_path) -> str:
-    """A fresh catalog location on each backend: SQLite file path, then PostgreSQL URL."""
+    """A fresh catalog location on each backend: SQLite file path, then PostgreSQL URL.
+
+    The PostgreSQL database collates text the English way (ICU ``en-US``), as a team server
+    usually does, so that a test relying on the database's own order of text fails.
+    """
     if request.param == "sqlite":
         return str(tmp_path / "catalog.sqlite")
-    return request.getfixturevalue("postgres_url")
+    return request.getfixturevalue("postgres_server").new_database(icu_locale="en-US")

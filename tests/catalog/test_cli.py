@@ -20,7 +20,7 @@ runner = CliRunner()
 REPO = Path(__file__).resolve().parents[2]
 
 
-def cli(*args: str, db: Path | None = None):
+def cli(*args: str, db: Path | str | None = None):
     argv = ["catalog", *args] + (["--db", str(db)] if db is not None else [])
     return runner.invoke(app, argv, env={"COLUMNS": "200"})
 
@@ -28,7 +28,7 @@ def cli(*args: str, db: Path | None = None):
 def test_every_catalog_command_has_help():
     group = get_command(app).commands["catalog"]
     assert group.help  # typer ships its own click: check by behaviour, not by class
-    assert set(group.commands) == {"init", "add", "import", "export", "list", "show", "find", "remove"}
+    assert set(group.commands) == {"init", "add", "import", "export", "list", "show", "find", "remove", "copy"}
     for name, command in group.commands.items():
         assert command.help and len(command.help) > 20, name
         for param in command.params:
