@@ -29,7 +29,23 @@ from dataclasses import dataclass
 from datetime import UTC, datetime
 from typing import Final
 
-from sqlalchemy import Column, Connection, Float, ForeignKey, Index, Integer, MetaData, String, Table, UniqueConstraint, insert, inspect, select, text, update
+from sqlalchemy import (
+    Column,
+    Connection,
+    Float,
+    ForeignKey,
+    Index,
+    Integer,
+    MetaData,
+    String,
+    Table,
+    UniqueConstraint,
+    insert,
+    inspect,
+    select,
+    text,
+    update,
+)
 
 from .. import __version__
 from ..errors import CatalogError
@@ -128,7 +144,8 @@ def schema_version(conn: Connection, location: str) -> int | None:
     except ValueError:
         version = 0
     if version < 1:
-        raise CatalogError(f"{location} has an unknown catalog schema version {value!r}; expected 1 to {CURRENT_VERSION}")
+        raise CatalogError(f"{location} has an unknown catalog schema version {value!r}; "
+                           f"expected 1 to {CURRENT_VERSION}")
     return version
 
 

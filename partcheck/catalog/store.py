@@ -22,18 +22,16 @@ sorts in code-point order) and the form of the upgrade backup.
 from __future__ import annotations
 
 import hashlib
-import io
 import os
 import random
 import sqlite3
 import time
-from collections.abc import Callable, Iterable
-from datetime import UTC, datetime
-from itertools import repeat, zip_longest
 from collections import defaultdict
-from collections.abc import Iterator
+from collections.abc import Callable, Iterable, Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass
+from datetime import UTC, datetime
+from itertools import repeat, zip_longest
 from operator import itemgetter
 from pathlib import Path
 from typing import IO, Literal, Self

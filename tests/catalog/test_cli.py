@@ -180,4 +180,5 @@ def test_subprocess_export_round_trip_and_newer_schema(tmp_path):
     done = _run("list", env_db=other)
     assert done.returncode == 2
     assert done.stderr == (f"error: {other} has catalog schema version {CURRENT_VERSION + 1}, newer than version "
-                           f"{CURRENT_VERSION} that partcheck 0.1.0 understands; upgrade partcheck to use this catalog\n")
+                           f"{CURRENT_VERSION} that partcheck 0.1.0 understands; "
+                           "upgrade partcheck to use this catalog\n")
