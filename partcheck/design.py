@@ -16,6 +16,7 @@ from __future__ import annotations
 import datetime as _dt
 import difflib
 import re
+import sys
 import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -376,7 +377,7 @@ def _transformer(top: _Reader, path: Path | None) -> tuple[Transformer, float | 
         if isinstance(ae, str):  # "25 mm2" style: accept a plain number in m² or "<number> mm2"
             m = re.fullmatch(r"\s*([0-9.eE+-]+)\s*mm(?:2|²|\^2)\s*", ae)
             ae = float(m.group(1)) * 1e-6 if m else None
-        if not isinstance(ae, (int, float)) or isinstance(ae, bool) or ae <= 0:
+        if not isinstance(ae, (int, float)) or isinstance(ae, bool) or not 0 < ae <= sys.float_info.max:
             raise r.error("ae", f"{_show(r.data['ae'])} is not a core area; expected square metres (2.5e-5) "
                                 "or a text such as \"25 mm2\"")
     return Transformer(lm, llk, r.quantity("dcr_pri", "ohm", nonnegative=True), np_turns,
@@ -588,7 +589,10 @@ def _feedback(data: Any, path: Path | None) -> dict[str, float | str]:
         if isinstance(value, str):
             result[key] = _any_quantity(value)
         else:
-            result[key] = float(value)
+            try:  # through the parser: NaN, infinity and integers beyond the float range are errors
+                result[key] = parse_quantity(value, None)
+            except QuantityError as exc:
+                raise r.error(key, exc.message) from None
     return result
 
 
