@@ -33,7 +33,7 @@ import math
 import tempfile
 from pathlib import Path
 
-from hypothesis import HealthCheck, given, settings
+from hypothesis import HealthCheck, example, given, settings
 from hypothesis import strategies as st
 
 from partcheck.bom.columns import SYNONYMS
@@ -250,8 +250,17 @@ def mutated_design(draw) -> dict:
     return doc
 
 
+def _with(section: str, key: str, value) -> dict:
+    doc = _copy(BASE_DESIGN)
+    doc[section][key] = value
+    return doc
+
+
 @budget(300)
 @given(doc=mutated_design())
+@example(doc=_with("feedback", "v_aux", 10**400))  # once an OverflowError (found by a longer fuzz run)
+@example(doc=_with("transformer", "ae", 10**400))
+@example(doc=_with("feedback", "v_aux", float("nan")))
 def test_design_from_dict_mutated(doc):
     try:
         design = design_from_dict(doc, file="fuzz.toml")
