@@ -77,32 +77,91 @@ def _read_text(path: Path) -> str:
     return text
 
 
-def _read_delimited(path: Path, delimiter: str) -> Table:
-    text = _read_text(path)
-    reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter, strict=True)
-    header: list[str] | None = None
-    header_line = 1
-    rows: list[list[object]] = []
-    lines: list[int | None] = []
-    previous = 0
+def _scan_text(path: Path) -> int:
+    """Check, reading in bounded blocks, that ``path`` is UTF-8 text without NUL characters; returns
+    the number of line breaks (for a progress bar).  On any problem the whole-file reader
+    :func:`_read_text` runs to raise its precise error (file, line)."""
+    import codecs
+
+    decoder = codecs.getincrementaldecoder("utf-8")()
+    newlines = 0
     try:
-        for cells in reader:
-            start = previous + 1
-            previous = reader.line_num
-            if not "".join(cells).strip():
-                continue
-            if header is None:
-                header, header_line = cells, start
-                continue
-            rows.append(cells)  # type: ignore[arg-type]
-            lines.append(start)
-    except csv.Error as exc:
-        raise CatalogInputError(f"is not valid {'CSV' if delimiter == ',' else 'TSV'}: {exc}", file=path,
-                                line=reader.line_num) from None
+        with open(path, "rb") as f:
+            while block := f.read(1 << 20):
+                if b"\x00" in block:
+                    raise ValueError("NUL")
+                decoder.decode(block)
+                newlines += block.count(b"\n")
+            decoder.decode(b"", final=True)
+    except (OSError, ValueError):  # UnicodeDecodeError is a ValueError
+        _read_text(path)  # raises the precise CatalogInputError
+        raise CatalogInputError("cannot read the file", file=path) from None  # pragma: no cover - changed meanwhile
+    return newlines
+
+
+def iter_delimited(path: Path, delimiter: str, chunk: int | None = None) -> Iterator[Table]:
+    """The cells of a CSV/TSV file as tables of at most ``chunk`` rows (one table when None), read
+    as a stream: memory holds one chunk, whatever the size of the file.  Every table has the
+    file's header; a file with a header only gives one table without rows."""
+    _scan_text(path)
+    try:
+        f = open(path, encoding="utf-8-sig", newline="")
+    except OSError as exc:  # pragma: no cover - checked by _scan_text just before
+        raise CatalogInputError(f"cannot read the file: {exc.strerror or exc}", file=path) from None
+    with f:
+        reader = csv.reader(f, delimiter=delimiter, strict=True)
+        header: list[str] | None = None
+        header_line = 1
+        rows: list[list[object]] = []
+        lines: list[int | None] = []
+        previous = 0
+        yielded = False
+        try:
+            for cells in reader:
+                start = previous + 1
+                previous = reader.line_num
+                if not "".join(cells).strip():
+                    continue
+                if header is None:
+                    header, header_line = [h.strip() for h in cells], start
+                    continue
+                rows.append(cells)  # type: ignore[arg-type]
+                lines.append(start)
+                if chunk is not None and len(rows) >= chunk:
+                    yield Table(str(path), header, rows, lines, header_line, text_only=True)
+                    yielded = True
+                    rows, lines = [], []
+        except csv.Error as exc:
+            raise CatalogInputError(f"is not valid {'CSV' if delimiter == ',' else 'TSV'}: {exc}", file=path,
+                                    line=reader.line_num) from None
     if header is None:
         raise CatalogInputError("the file is empty; expected a header row such as 'part_number,category,...'",
                                 file=path)
-    return Table(str(path), [h.strip() for h in header], rows, lines, header_line, text_only=True)
+    if rows or not yielded:
+        yield Table(str(path), header, rows, lines, header_line, text_only=True)
+
+
+def _read_delimited(path: Path, delimiter: str) -> Table:
+    return next(iter_delimited(path, delimiter))
+
+
+def iter_tables(path: str | Path, chunk: int) -> Iterator[Table]:
+    """The cells of a catalog file in tables of at most ``chunk`` rows: CSV and TSV are streamed;
+    XLSX and JSON are read whole (one table)."""
+    path = Path(path)
+    fmt = file_format(path)
+    if fmt in ("csv", "tsv"):
+        yield from iter_delimited(path, "," if fmt == "csv" else "\t", chunk)
+    else:
+        yield read_table(path)
+
+
+def count_lines(path: str | Path) -> int | None:
+    """Line breaks in a CSV/TSV file (a progress bar's total), None for other formats or unreadable files."""
+    try:
+        return _scan_text(Path(path)) if file_format(path) in ("csv", "tsv") else None
+    except CatalogInputError:
+        return None
 
 
 def _xlsx_cell(value: object) -> object:

@@ -62,6 +62,9 @@ BACKOFF_S = 0.2
 #: Rows per chunk when streaming parts (iter_parts, export, copy).
 CHUNK = 2000
 
+#: Rows per chunk of a streamed import; a file with at most this many rows is validated whole first.
+IMPORT_CHUNK = 20_000
+
 #: PostgreSQL SQLSTATEs worth a retry: serialization_failure, deadlock_detected, lock_not_available.
 _RETRY_SQLSTATES = frozenset({"40001", "40P01", "55P03"})
 
@@ -403,52 +406,123 @@ class Catalog:
         return self.get(str(validated.columns["part_number"][0]))
 
     def import_file(self, path: str | os.PathLike[str], *, update: bool = False,
-                    method: Literal["bulk", "orm"] = "bulk") -> ImportReport:
+                    method: Literal["bulk", "orm"] = "bulk",
+                    progress: Callable[[int, int | None], None] | None = None) -> ImportReport:
         """Import a CSV, TSV, XLSX or JSON catalog file (and its curve side file) all-or-nothing.
 
-        Every cell is validated before anything is written; all problems are reported in one
-        :class:`CatalogInputError`.  A part number already in the catalog is an error unless
-        ``update`` is true, which replaces the stored part (and, when curve data is given, its
-        curves).  ``method="orm"`` writes row by row through the ORM, for the benchmark only.
+        Every cell is validated; all problems are reported in one :class:`CatalogInputError` and
+        nothing is written.  A part number already in the catalog is an error unless ``update``
+        is true, which replaces the stored part (and, when curve data is given, its curves).
+        ``method="orm"`` writes row by row through the ORM, for the benchmark only.
+
+        A file of up to :data:`IMPORT_CHUNK` rows is validated whole before the write transaction
+        starts.  A longer CSV/TSV file is streamed: each chunk is validated and written inside
+        one write transaction (held for the whole file), the problems of every chunk are
+        collected, and any problem rolls the whole import back; memory holds one chunk plus the
+        part numbers seen (for duplicates across chunks).  ``progress(rows done, about how many
+        lines)`` is called after each chunk.
         """
-        table = cio.read_table(path)
+        chunks = cio.iter_tables(path, IMPORT_CHUNK)
+        first = next(chunks)
+        if next(chunks, None) is None:
+            curve_table = cio.read_curve_table(path)
+            validated = cval.validate(first, curve_table, existing=self._existing(), update=update)
+            report = self._write(validated, update=update, method=method)
+            if progress:
+                progress(len(first.rows), len(first.rows))
+            return report
+        chunks.close()
+        del first
+        return self._retrying(lambda: self._import_streaming(Path(path), update, method, progress))
+
+    def _import_streaming(self, path: Path, update: bool, method: str, progress) -> ImportReport:
+        total = cio.count_lines(path)
         curve_table = cio.read_curve_table(path)
-        validated = cval.validate(table, curve_table, existing=self._existing(), update=update)
-        return self._write(validated, update=update, method=method)
+        stamp = _now()
+        problems: list[cval.Problem] = []
+        seen: dict[str, int | None] = {}
+        category: dict[str, str | None] = {}
+        replaced: list[int] = []  # ids of updated parts whose curves the curve file replaces
+        added = updated = done = points = 0
+        with self._conn(write=True) as conn:
+            existing = dict(conn.execute(select(PART.c.part_number, PART.c.id)).all())
+            for table in cio.iter_tables(path, IMPORT_CHUNK):
+                try:
+                    v = cval.validate(table, None, existing=existing, update=update, seen=seen)
+                except CatalogInputError as exc:
+                    found = getattr(exc, "problems", None)
+                    if not found or any(p.line == table.header_line and p.file is None for p in found):
+                        raise  # the header is every chunk's header: nothing more to learn from the rows
+                    problems.extend(found)
+                    v = None
+                if v is not None:
+                    if curve_table is not None:
+                        category.update(zip(v.columns["part_number"], v.columns["category"]))
+                    if not problems:  # once anything is wrong, only validate (the write is rolled back)
+                        a, u, _ = self._write_rows(conn, v, update=update, method=method, stamp=stamp,
+                                                   existing=existing)
+                        added, updated = added + a, updated + u
+                        if curve_table is not None and u:
+                            replaced.extend(existing[pn] for pn in v.columns["part_number"] if pn in existing)
+                done += len(table.rows)
+                if progress:
+                    progress(done, total)
+                del table, v
+            curves = None
+            if curve_table is not None:
+                curves = cval._validate_curve_table(curve_table, {pn: category.get(pn) for pn in seen}, problems)
+            cval.raise_problems(str(path), problems)  # inside the transaction: rolls everything back
+            if curves is not None:
+                if replaced:
+                    conn.execute(delete(POINT).where(POINT.c.part_id == bindparam("pid")),
+                                 [{"pid": pid} for pid in replaced])
+                ids = dict(conn.execute(select(PART.c.part_number, PART.c.id)).all())
+                rows = [(ids[pn], name, seq, x, y) for pn, c in curves.items() for name, pts in c.items()
+                        for seq, (x, y) in enumerate(pts)]
+                for start in range(0, len(rows), IMPORT_CHUNK):
+                    _executemany(conn, POINT, ("part_id", "curve", "seq", "x", "y"), rows[start:start + IMPORT_CHUNK])
+                points = len(rows)
+        return ImportReport(str(path), added, updated, points, curve_table.file if curve_table else None, method)
 
     def _write(self, v: cval.Validated, *, update: bool, method: str = "bulk") -> ImportReport:
         """Write a validated import in one transaction, retried while the catalog is busy."""
         return self._retrying(lambda: self._write_once(v, update=update, method=method))
 
     def _write_once(self, v: cval.Validated, *, update: bool, method: str = "bulk") -> ImportReport:
-        pns = v.columns["part_number"]
-        stamp = _now()
         with self._conn(write=True) as conn:
             existing = dict(conn.execute(select(PART.c.part_number, PART.c.id)).all())
-            new = [i for i, pn in enumerate(pns) if pn not in existing]
-            old = [i for i, pn in enumerate(pns) if pn in existing]
-            if old and not update:  # appeared since validation: another writer was faster
-                raise _failure(f"{v.file or self.location}: part {pns[old[0]]!r} was added to the catalog by "
-                               "someone else during this import; nothing was written, try again")
-            if method == "orm":
-                self._insert_orm(conn, v.records(new), stamp)
-            else:
-                self._insert_bulk(conn, v, new, stamp)
+            added, updated, points = self._write_rows(conn, v, update=update, method=method, stamp=_now(),
+                                                      existing=existing)
+        return ImportReport(v.file, added, updated, points, v.curves_file, method)
+
+    def _write_rows(self, conn, v: cval.Validated, *, update: bool, method: str, stamp: str,
+                    existing: dict[str, int]) -> tuple[int, int, int]:
+        """Insert/update the rows of ``v`` (and its curves, if given) on ``conn``; (added, updated, points)."""
+        pns = v.columns["part_number"]
+        new = [i for i, pn in enumerate(pns) if pn not in existing]
+        old = [i for i, pn in enumerate(pns) if pn in existing]
+        if old and not update:  # appeared since validation: another writer was faster
+            raise _failure(f"{v.file or self.location}: part {pns[old[0]]!r} was added to the catalog by "
+                           "someone else during this import; nothing was written, try again")
+        if method == "orm":
+            self._insert_orm(conn, v.records(new), stamp)
+        else:
+            self._insert_bulk(conn, v, new, stamp)
+        if old:
+            self._update_bulk(conn, v.records(old), stamp)
+        points = 0
+        if v.curves is not None:
+            ids = dict(conn.execute(select(PART.c.part_number, PART.c.id)).all())
             if old:
-                self._update_bulk(conn, v.records(old), stamp)
-            points = 0
-            if v.curves is not None:
-                ids = dict(conn.execute(select(PART.c.part_number, PART.c.id)).all())
-                if old:
-                    conn.execute(delete(POINT).where(POINT.c.part_id == bindparam("pid")),
-                                 [{"pid": existing[pns[i]]} for i in old])
-                rows = [(ids[pn], name, seq, x, y)
-                        for pn, curves in v.curves.items() for name, pts in curves.items()
-                        for seq, (x, y) in enumerate(pts)]
-                if rows:
-                    _executemany(conn, POINT, ("part_id", "curve", "seq", "x", "y"), rows)
-                points = len(rows)
-        return ImportReport(v.file, len(new), len(old), points, v.curves_file, method)
+                conn.execute(delete(POINT).where(POINT.c.part_id == bindparam("pid")),
+                             [{"pid": existing[pns[i]]} for i in old])
+            rows = [(ids[pn], name, seq, x, y)
+                    for pn, curves in v.curves.items() for name, pts in curves.items()
+                    for seq, (x, y) in enumerate(pts)]
+            if rows:
+                _executemany(conn, POINT, ("part_id", "curve", "seq", "x", "y"), rows)
+            points = len(rows)
+        return len(new), len(old), points
 
     @staticmethod
     def _insert_bulk(conn, v: cval.Validated, indices: list[int], stamp: str) -> None:

@@ -193,11 +193,13 @@ def _where(table: Table, i: int) -> tuple[int | None, str | None]:
 
 
 def validate(table: Table, curve_table: Table | None = None, *, existing: Iterable[str] = (),
-             update: bool = False, verb: str = "imported") -> Validated:
+             update: bool = False, verb: str = "imported", seen: dict[str, int | None] | None = None) -> Validated:
     """Validate every cell of ``table`` (and its curves); raise one error listing every problem.
 
     ``existing`` are the part numbers already in the catalog: each of them in ``table`` is a
-    problem unless ``update`` is true.
+    problem unless ``update`` is true.  ``seen`` maps the part numbers of earlier chunks of the
+    same file to their lines (a chunked import passes one dict through every chunk, so a part
+    number repeated across chunks is found); it is updated with this table's part numbers.
     """
     existing = existing if isinstance(existing, (set, frozenset, dict)) else set(existing)
     problems: list[Problem] = []
@@ -252,7 +254,7 @@ def validate(table: Table, curve_table: Table | None = None, *, existing: Iterab
     out["category"] = cats
 
     pns: list[str | None] = [None] * n
-    first_line: dict[str, int | None] = {}
+    first_line: dict[str, int | None] = {} if seen is None else seen
     for i, cell in enumerate(columns["part_number"]):
         if _is_empty(cell):
             line, key = _where(table, i)
