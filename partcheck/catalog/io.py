@@ -17,7 +17,6 @@ written with ``repr`` so that every value reads back to the identical float.
 from __future__ import annotations
 
 import csv
-import io
 import json
 import re
 from collections.abc import Iterable, Iterator

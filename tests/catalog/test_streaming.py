@@ -87,7 +87,8 @@ def test_already_in_the_catalog_across_chunks(tmp_path, catalog_url, monkeypatch
         cat.add({"part_number": "R-011", "category": "resistor"})
         before = cat.snapshot_hash()
         monkeypatch.setattr(store, "IMPORT_CHUNK", 5)
-        path = write(tmp_path / "in.csv", "part_number,category\n" + "".join(f"R-{i:03d},resistor\n" for i in range(12)))
+        body = "".join(f"R-{i:03d},resistor\n" for i in range(12))
+        path = write(tmp_path / "in.csv", "part_number,category\n" + body)
         with pytest.raises(CatalogInputError) as info:
             cat.import_file(path)
         assert str(info.value) == (f"{path}, line 13, column 'part_number': part number 'R-011' is already in the "
