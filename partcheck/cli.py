@@ -195,9 +195,9 @@ def catalog_import(
     """Import parts all-or-nothing: every bad cell is reported with its line and column, and nothing is written."""
     from .catalog import open_catalog
 
-    with open_catalog(db, create=True) as cat:
-        report = cat.import_file(file, update=update)
-        out.print(f"imported {report} into {cat.location}", markup=False)
+    with open_catalog(db, create=True) as cat, _cat_progress("importing parts") as progress:
+        report = cat.import_file(file, update=update, progress=progress)
+    out.print(f"imported {report} into {cat.location}", markup=False)
 
 
 @catalog_app.command("export")
@@ -404,8 +404,11 @@ def match_command(
 
     if format not in ("table", "json", "csv"):
         raise typer.BadParameter(f"{format!r} is not a format; expected table, json or csv", param_hint="--format")
-    report = match_bom_file(bom, db=db, pins=parse_pins(pin), columns=parse_column_overrides(columns), sheet=sheet,
-                            decimal_comma=decimal_comma)
+    from contextlib import nullcontext
+
+    with _cat_progress("matching BOM lines") if format == "table" else nullcontext() as progress:  # terminal only
+        report = match_bom_file(bom, db=db, pins=parse_pins(pin), columns=parse_column_overrides(columns), sheet=sheet,
+                                decimal_comma=decimal_comma, progress=progress)
     if format == "json":
         sys.stdout.write(_json.dumps(report.to_dict(), indent=2, ensure_ascii=False) + "\n")
     elif format == "csv":

@@ -24,7 +24,7 @@ from __future__ import annotations
 import math
 import re
 from collections import defaultdict
-from collections.abc import Iterable
+from collections.abc import Callable, Iterable
 from dataclasses import dataclass, field
 from os import PathLike
 from typing import Any, Final
@@ -692,11 +692,23 @@ def _wanted_words(line: BomLine, cats: list[str]) -> str:
 # --------------------------------------------------------------------------------------------
 
 def match_bom(bom: Bom, parts: list[Any] | Matcher, pins: dict[str, str] | None = None, *,
-              threshold: float = DEFAULT_THRESHOLD, ambiguity_gap: float = DEFAULT_AMBIGUITY_GAP) -> list[LineMatch]:
-    """Match every line of ``bom`` against ``parts`` (catalog records, or a prepared :class:`Matcher`)."""
+              threshold: float = DEFAULT_THRESHOLD, ambiguity_gap: float = DEFAULT_AMBIGUITY_GAP,
+              progress: Callable[[int, int], None] | None = None) -> list[LineMatch]:
+    """Match every line of ``bom`` against ``parts`` (catalog records, or a prepared :class:`Matcher`).
+
+    ``progress(lines done, lines)`` is called every 500 lines and at the end (a progress bar's hook).
+    """
     matcher = parts if isinstance(parts, Matcher) else Matcher(parts, threshold=threshold,
                                                                 ambiguity_gap=ambiguity_gap)
-    return [matcher.match_line(line, pins) for line in bom.lines]
+    if progress is None:
+        return [matcher.match_line(line, pins) for line in bom.lines]
+    out = []
+    total = len(bom.lines)
+    for i, line in enumerate(bom.lines, 1):
+        out.append(matcher.match_line(line, pins))
+        if i % 500 == 0 or i == total:
+            progress(i, total)
+    return out
 
 
 @dataclass
@@ -738,7 +750,8 @@ def parse_pins(items: Iterable[str] | None) -> dict[str, str]:
 
 def match_bom_file(path: str | PathLike[str], *, db: str | None = None, catalog: Any = None,
                    pins: dict[str, str] | None = None, columns: dict[str, str] | None = None,
-                   sheet: str | None = None, decimal_comma: bool | None = None) -> MatchReport:
+                   sheet: str | None = None, decimal_comma: bool | None = None,
+                   progress: Callable[[int, int], None] | None = None) -> MatchReport:
     """Read a BOM file and match it against a catalog (``catalog`` object, or opened from ``db``)."""
     bom = read_bom(path, sheet=sheet, columns=columns, decimal_comma=decimal_comma)
     if catalog is None:
@@ -748,4 +761,4 @@ def match_bom_file(path: str | PathLike[str], *, db: str | None = None, catalog:
             parts = cat.parts()
     else:
         parts = catalog.parts()
-    return MatchReport(bom=bom, matches=match_bom(bom, parts, pins))
+    return MatchReport(bom=bom, matches=match_bom(bom, parts, pins, progress=progress))
