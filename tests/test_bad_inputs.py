@@ -8,7 +8,8 @@ print no traceback, and leave the catalog database byte-identical.  The files of
 (formula-injection cells are kept as text and neutralised on export, script text stays plain
 text, ...).
 
-Runtime: one process per file, about 1 s each (~75 files, about a minute on a shared machine).
+Runtime: one process per file, 0.3-1.2 s each (72 error files and 10 accepted ones: about a
+minute on a shared 2-core machine).
 """
 
 from __future__ import annotations
