@@ -795,6 +795,16 @@ class Catalog:
             if dest is not target:
                 dest.close()
 
+    @staticmethod
+    def _ids(conn, part_numbers: set[str], per_query: int = 500) -> dict[str, int]:
+        """``{part_number: id}`` for ``part_numbers``, looked up ``per_query`` at a time (bound-parameter limits)."""
+        numbers = sorted(part_numbers)
+        out: dict[str, int] = {}
+        for start in range(0, len(numbers), per_query):
+            some = numbers[start:start + per_query]
+            out.update(conn.execute(select(PART.c.part_number, PART.c.id).where(PART.c.part_number.in_(some))).all())
+        return out
+
     def _receive(self, source: Catalog, replace: bool, progress) -> CopyReport:
         cols = (*FIELDS, "updated_at")
         with self._conn(write=True) as conn, source._conn(write=False) as sconn:
@@ -816,17 +826,16 @@ class Catalog:
                 done += len(batch)
                 if progress:
                     progress(done, total)
-            ids = dict(conn.execute(select(PART.c.part_number, PART.c.id)).all())
             result = streaming.execute(
                 select(PART.c.part_number, POINT.c.curve, POINT.c.seq, POINT.c.x, POINT.c.y)
                 .select_from(POINT.join(PART)).order_by(POINT.c.id))
             for batch in result.partitions(CHUNK):
+                ids = self._ids(conn, {row[0] for row in batch})  # the new ids of this batch's parts only
                 _executemany(conn, POINT, ("part_id", "curve", "seq", "x", "y"),
                              [(ids[pn], curve, seq, x, y) for pn, curve, seq, x, y in batch])
                 done += len(batch)
                 if progress:
                     progress(done, total)
-            del ids
             # Verify before committing: the two canonical exports, compared piece by piece.
             mine = cio.iter_json(self._iter_records(conn), CURRENT_VERSION)
             theirs = cio.iter_json(source._iter_records(sconn), CURRENT_VERSION)
