@@ -394,14 +394,18 @@ class Catalog:
 
     # ---- writing ---------------------------------------------------------------------------
 
-    def _existing(self) -> dict[str, int]:
+    def _existing(self, part_numbers: set[str] | None = None) -> dict[str, int]:
+        """``{part_number: id}`` of the catalog's parts (only those of ``part_numbers`` when given)."""
         with self._conn(write=False) as conn:
-            return dict(conn.execute(select(PART.c.part_number, PART.c.id)).all())
+            if part_numbers is None:
+                return dict(conn.execute(select(PART.c.part_number, PART.c.id)).all())
+            return self._ids(conn, part_numbers)
 
     def add(self, fields: dict[str, str | float], *, update: bool = False) -> PartRecord:
         """Add one part from column values (text with units, or SI numbers); returns it as stored."""
         table = cval.Table("", list(fields), [list(fields.values())], [None], None)
-        validated = cval.validate(table, None, existing=self._existing(), update=update, verb="added")
+        validated = cval.validate(table, None, existing=self._existing(_part_numbers(table)), update=update,
+                                  verb="added")
         self._write(validated, update=update)
         return self.get(str(validated.columns["part_number"][0]))
 
@@ -426,7 +430,8 @@ class Catalog:
         first = next(chunks)
         if next(chunks, None) is None:
             curve_table = cio.read_curve_table(path)
-            validated = cval.validate(first, curve_table, existing=self._existing(), update=update)
+            validated = cval.validate(first, curve_table, existing=self._existing(_part_numbers(first)),
+                                      update=update)
             report = self._write(validated, update=update, method=method)
             if progress:
                 progress(len(first.rows), len(first.rows))
@@ -443,10 +448,11 @@ class Catalog:
         seen: dict[str, int | None] = {}
         category: dict[str, str | None] = {}
         replaced: list[int] = []  # ids of updated parts whose curves the curve file replaces
+        with_curves = _part_numbers(curve_table) if curve_table is not None else set()  # categories kept for these
         added = updated = done = points = 0
         with self._conn(write=True) as conn:
-            existing = dict(conn.execute(select(PART.c.part_number, PART.c.id)).all())
             for table in cio.iter_tables(path, IMPORT_CHUNK):
+                existing = self._ids(conn, _part_numbers(table))  # only this chunk's: memory stays bounded
                 try:
                     v = cval.validate(table, None, existing=existing, update=update, seen=seen)
                 except CatalogInputError as exc:
@@ -456,8 +462,9 @@ class Catalog:
                     problems.extend(found)
                     v = None
                 if v is not None:
-                    if curve_table is not None:
-                        category.update(zip(v.columns["part_number"], v.columns["category"]))
+                    if with_curves:
+                        category.update((pn, cat) for pn, cat in zip(v.columns["part_number"], v.columns["category"])
+                                        if pn in with_curves)
                     if not problems:  # once anything is wrong, only validate (the write is rolled back)
                         a, u, _ = self._write_rows(conn, v, update=update, method=method, stamp=stamp,
                                                    existing=existing)
@@ -470,13 +477,14 @@ class Catalog:
                 del table, v
             curves = None
             if curve_table is not None:
-                curves = cval._validate_curve_table(curve_table, {pn: category.get(pn) for pn in seen}, problems)
+                known = {pn: category.get(pn) for pn in with_curves if pn in seen}  # None: its row had a problem
+                curves = cval._validate_curve_table(curve_table, known, problems)
             cval.raise_problems(str(path), problems)  # inside the transaction: rolls everything back
             if curves is not None:
                 if replaced:
                     conn.execute(delete(POINT).where(POINT.c.part_id == bindparam("pid")),
                                  [{"pid": pid} for pid in replaced])
-                ids = dict(conn.execute(select(PART.c.part_number, PART.c.id)).all())
+                ids = self._ids(conn, {pn for pn, c in curves.items() if c})
                 rows = [(ids[pn], name, seq, x, y) for pn, c in curves.items() for name, pts in c.items()
                         for seq, (x, y) in enumerate(pts)]
                 for start in range(0, len(rows), IMPORT_CHUNK):
@@ -490,7 +498,7 @@ class Catalog:
 
     def _write_once(self, v: cval.Validated, *, update: bool, method: str = "bulk") -> ImportReport:
         with self._conn(write=True) as conn:
-            existing = dict(conn.execute(select(PART.c.part_number, PART.c.id)).all())
+            existing = self._ids(conn, {pn for pn in v.columns["part_number"] if pn is not None})
             added, updated, points = self._write_rows(conn, v, update=update, method=method, stamp=_now(),
                                                       existing=existing)
         return ImportReport(v.file, added, updated, points, v.curves_file, method)
@@ -512,7 +520,7 @@ class Catalog:
             self._update_bulk(conn, v.records(old), stamp)
         points = 0
         if v.curves is not None:
-            ids = dict(conn.execute(select(PART.c.part_number, PART.c.id)).all())
+            ids = self._ids(conn, {pn for pn, c in v.curves.items() if c})
             if old:
                 conn.execute(delete(POINT).where(POINT.c.part_id == bindparam("pid")),
                              [{"pid": existing[pns[i]]} for i in old])
@@ -858,6 +866,16 @@ def _executemany(conn, table, cols: tuple[str, ...] | list[str], rows: list[tupl
     else:
         params = [dict(zip(cols, r)) for r in rows]
     conn.exec_driver_sql(compiled.string, params)
+
+
+def _part_numbers(table: cval.Table) -> set[str]:
+    """The part numbers a table of cells holds (as validation will read them), to look up only those."""
+    names = [str(h).strip().lower() for h in table.header]
+    if "part_number" not in names:
+        return set()
+    i = names.index("part_number")
+    return {cval._text_cell(row[i]) for row in table.rows
+            if len(row) > i and isinstance(row[i], (str, int, float)) and not cval._is_empty(row[i])}
 
 
 class _Counter:

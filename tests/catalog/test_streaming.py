@@ -101,3 +101,18 @@ def test_iter_parts_streams_in_order_with_curves(catalog, monkeypatch):
     assert list(catalog.iter_parts(chunk=3)) == catalog.parts()
     with pytest.raises(CatalogInputError, match="chunk must be at least 1"):
         next(catalog.iter_parts(chunk=0))
+
+
+def test_curve_problems_of_a_streamed_import_read_as_for_a_whole_one(tmp_path, catalog_url, monkeypatch):
+    rows = "".join(f"C-{i:02d},capacitor,ceramic,1u,25 V,X7R\n" for i in range(12))
+    rows = rows.replace("C-07,capacitor,ceramic,1u,25 V,X7R", "C-07,capacitor,ceramic,1u,22uF,X7R")  # line 9
+    path = write(tmp_path / "caps.csv", "part_number,category,subtype,capacitance,v_rated,dielectric\n" + rows)
+    write(tmp_path / "caps.curves.csv", "part_number,curve,x,y\n"
+          "C-01,dc_bias,0,1\nC-01,dc_bias,10 V,0.6\n"   # fine
+          "C-07,dc_bias,0,1\nC-07,dc_bias,5 A,0.6\n"    # line 5: wrong unit, on the part with a bad row
+          "C-99,dc_bias,0,1\n"                          # line 6: not in the import
+          "C-11,dc_bias,0,1\n")                         # line 7: one point only
+    (_, _, e_whole), (_, _, e_chunked) = _both_ways(monkeypatch, tmp_path / "whole.sqlite", catalog_url, path)
+    assert e_whole is not None and str(e_chunked) == str(e_whole)
+    assert [(p.line, p.column) for p in e_whole.problems] == [(9, "v_rated"), (5, "x"), (6, "part_number"),
+                                                              (7, "curve")]
