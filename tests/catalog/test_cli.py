@@ -182,3 +182,24 @@ def test_subprocess_export_round_trip_and_newer_schema(tmp_path):
     assert done.stderr == (f"error: {other} has catalog schema version {CURRENT_VERSION + 1}, newer than version "
                            f"{CURRENT_VERSION} that partcheck 0.1.0 understands; "
                            "upgrade partcheck to use this catalog\n")
+
+
+def test_subprocess_failed_imports_change_nothing_on_each_backend(tmp_path, catalog_url):
+    # The equivalent of the byte-identical file above for any backend: the canonical export of the
+    # catalog before and after each failed import is the same, byte for byte.
+    def run(*args: str) -> subprocess.CompletedProcess:
+        env = {**os.environ, "PARTCHECK_DB": catalog_url, "COLUMNS": "200"}
+        return subprocess.run([sys.executable, "-m", "partcheck", "catalog", *args], capture_output=True, text=True,
+                              check=False, env=env, cwd=REPO, timeout=60)
+
+    assert run("import", str(SMALL)).returncode == 0
+    before = run("export", "-", "--format", "json")
+    assert before.returncode == 0 and before.stdout.count('"part_number"') == 12
+    bad = tmp_path / "bad.csv"
+    bad.write_text("part_number,category,v_rated\nC-NEW,capacitor,25 V\nC-BAD,capacitor,22uF\n", encoding="utf-8")
+    dup = tmp_path / "dup.csv"
+    dup.write_text("part_number,category\nNEW-2,clamp\nTST-Z-150V,clamp\n", encoding="utf-8")
+    for path in (bad, dup):
+        done = run("import", str(path))
+        assert done.returncode == 2 and done.stderr.startswith(f"error: {path}, line ") and "Traceback" not in done.stderr
+        assert run("export", "-", "--format", "json").stdout == before.stdout

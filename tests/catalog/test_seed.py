@@ -26,8 +26,8 @@ def test_seed_imports_cleanly_and_covers_every_subtype(tmp_path):
         assert again.snapshot_hash() == hash_first
 
 
-def test_seed_catalog_into_an_open_catalog(tmp_path):
-    with open_catalog(tmp_path / "c.sqlite") as cat:
+def test_seed_catalog_into_an_open_catalog(catalog_url):
+    with open_catalog(catalog_url) as cat:
         report = seed_catalog(cat)
         assert report.added == cat.count() >= 150 and report.updated == 0
         assert report.curves_file == str(SEED_DIR / "parts.curves.csv") and report.curve_points > 0
