@@ -201,5 +201,6 @@ def test_subprocess_failed_imports_change_nothing_on_each_backend(tmp_path, cata
     dup.write_text("part_number,category\nNEW-2,clamp\nTST-Z-150V,clamp\n", encoding="utf-8")
     for path in (bad, dup):
         done = run("import", str(path))
-        assert done.returncode == 2 and done.stderr.startswith(f"error: {path}, line ") and "Traceback" not in done.stderr
+        assert done.returncode == 2 and done.stderr.startswith(f"error: {path}, line ")
+        assert "Traceback" not in done.stderr
         assert run("export", "-", "--format", "json").stdout == before.stdout
