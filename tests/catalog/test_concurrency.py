@@ -54,16 +54,16 @@ def _state(db: str) -> tuple[set[str], int]:
 
 def test_two_importers_of_disjoint_files_at_once(catalog_url, tmp_path):
     open_catalog(catalog_url).close()
-    a = _generate(tmp_path, "A", 15_000, curves=True)
-    b = _generate(tmp_path, "B", 15_000, curves=False)
+    a = _generate(tmp_path, "A", 8_000, curves=True)
+    b = _generate(tmp_path, "B", 8_000, curves=False)
     procs = [_import(catalog_url, a), _import(catalog_url, b)]  # started together, they overlap
     results = [_finish(p) for p in procs]
     numbers, points = _state(catalog_url)
     expected, expected_points = set(), 0
-    for (code, out, err), prefix, pts in zip(results, "AB", (30_000, 0)):
+    for (code, out, err), prefix, pts in zip(results, "AB", (16_000, 0)):
         if code == 0:
-            assert out.startswith(f"imported {tmp_path / prefix}.csv: 15000 parts added"), out
-            expected |= {f"{prefix}-{i:05d}" for i in range(15_000)}
+            assert out.startswith(f"imported {tmp_path / prefix}.csv: 8000 parts added"), out
+            expected |= {f"{prefix}-{i:05d}" for i in range(8_000)}
             expected_points += pts
         else:  # allowed: a clean error after the retries, and then nothing of that file
             assert code == 1 and err.startswith("error: ") and "Traceback" not in err and "try again" in err, err
@@ -74,8 +74,8 @@ def test_two_importers_of_disjoint_files_at_once(catalog_url, tmp_path):
 
 def test_two_importers_of_overlapping_files_one_wins_whole(catalog_url, tmp_path):
     open_catalog(catalog_url).close()
-    a = _generate(tmp_path, "A", 10_000, curves=True, shared="SHARED-1")
-    b = _generate(tmp_path, "B", 10_000, curves=True, shared="SHARED-1")
+    a = _generate(tmp_path, "A", 5_000, curves=True, shared="SHARED-1")
+    b = _generate(tmp_path, "B", 5_000, curves=True, shared="SHARED-1")
     results = [_finish(p) for p in [_import(catalog_url, a), _import(catalog_url, b)]]
     codes = sorted(r[0] for r in results)
     assert codes in ([0, 1], [0, 2]), [r[2] for r in results]  # exactly one wins
@@ -83,8 +83,8 @@ def test_two_importers_of_overlapping_files_one_wins_whole(catalog_url, tmp_path
     prefix = "A" if winner is results[0] else "B"
     assert "SHARED-1" in loser[2] and "nothing was" in loser[2] and "Traceback" not in loser[2], loser[2]
     numbers, points = _state(catalog_url)
-    assert numbers == {f"{prefix}-{i:05d}" for i in range(10_000)} | {"SHARED-1"}
-    assert points == 2 * 10_001
+    assert numbers == {f"{prefix}-{i:05d}" for i in range(5_000)} | {"SHARED-1"}
+    assert points == 2 * 5_001
 
 
 READER = r"""
@@ -106,7 +106,7 @@ with open_catalog(sys.argv[1]) as cat:
 def test_a_reader_during_an_import_sees_the_old_or_the_new_catalog(catalog_url, tmp_path):
     with open_catalog(catalog_url) as cat:
         cat.import_file(SMALL)  # 12 parts, 8 curve points
-    big = _generate(tmp_path, "BIG", 25_000, curves=True)
+    big = _generate(tmp_path, "BIG", 15_000, curves=True)
     reader = subprocess.Popen([sys.executable, "-c", READER, catalog_url, "12"], cwd=REPO, env=_env(catalog_url),
                               stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
     assert reader.stdout is not None
@@ -117,6 +117,6 @@ def test_a_reader_during_an_import_sees_the_old_or_the_new_catalog(catalog_url, 
     assert code == 0, err
     assert reader.returncode == 0, reader_err
     states = [tuple(map(int, line.split())) for line in (first + rest).splitlines()]
-    old, new = (12, 8), (12 + 25_000, 8 + 50_000)
+    old, new = (12, 8), (12 + 15_000, 8 + 30_000)
     assert states[0] == old and states[-1] == new
     assert set(states) <= {old, new}, sorted(set(states) - {old, new})[:5]  # never a half-written catalog
