@@ -14,7 +14,7 @@ same modules, so the figure attributable to the data is the difference.
   Set ``PARTCHECK_BENCH_PG`` to an empty PostgreSQL database URL to time the copy into it too.
 
 The generated data are invented.  Run alone with ``python3 benchmarks/bench_large.py``
-(about three minutes and 1 GB of temporary disk).
+(about ten minutes on a shared two-core machine, and 1.5 GB of temporary disk).
 """
 
 from __future__ import annotations
