@@ -402,7 +402,7 @@ def role_stresses(design, sol: dict[str, np.ndarray], i: int, voltage_only: bool
 
     roles: dict[str, dict] = {
         "switch": {"v_peak": f("sw_vpk"), "i_peak": f("ipk"), "i_rms": f("sw_rms"), "i_avg": f("sw_avg")}}
-    for j, out in enumerate(design.outputs):
+    for j in range(len(design.outputs)):
         roles[output_role("rectifier", design, j)] = {
             "v_reverse": f("vrect_j", j), "i_peak": f("is_pk_j", j), "i_rms": f("is_rms_j", j),
             "i_avg": f("is_avg_j", j)}
@@ -413,7 +413,7 @@ def role_stresses(design, sol: dict[str, np.ndarray], i: int, voltage_only: bool
         roles["clamp_diode"] = {"v_reverse": f("clamp_diode_vr"), "i_peak": f("ipk") if lk else 0.0,
                                 "i_avg": f("clamp_avg"), "i_rms": f("clamp_rms")}
     roles["input_cap"] = {"v_dc": f("vin_dc"), "i_rms": f("icin")}
-    for j, out in enumerate(design.outputs):
+    for j in range(len(design.outputs)):
         roles[output_role("output_cap", design, j)] = {"v_dc": f("vout_j", j), "i_rms": f("icout_j", j),
                                                        "v_ripple_pp": f("vripple_j", j)}
     tr = {"i_peak": f("ipk"), "i_rms_pri": f("pri_rms"), "i_rms_sec": f("is_rms_j", 0)}

@@ -115,7 +115,7 @@ def check(design: Design, corners: list[CornerSpec], op: OperatingPoints,
     for i in np.nonzero(sol["fs_clamped"])[0]:
         notes.append(f"{ids[i]}: the boundary-mode frequency would exceed the maximum "
                      f"{format_quantity(conv.fsw, 'Hz')}; the converter runs clamped at it in DCM, computed that way")
-    for j, out in enumerate(design.outputs):
+    for out in design.outputs:
         if not out.vf_given:
             notes.append(f"output {out.name!r}: no vf given, the rectifier drop is taken as 0 V")
         if not out.turns_ratio_given:

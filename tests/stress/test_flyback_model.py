@@ -82,7 +82,7 @@ def test_closed_forms_equal_integrated_waveforms(name):
             avg, rms = numeric(waves["clamp"], n=2_000_001)  # a pulse tens of ns long: finer sampling
             assert avg == pytest.approx(c.roles["clamp"]["i_avg"], rel=1e-3, abs=1e-9)
             assert rms == pytest.approx(c.roles["clamp"]["i_rms"], rel=1e-3, abs=1e-9)
-        for j, out in enumerate(names):
+        for out in names:
             role = "rectifier" if len(names) == 1 else f"rectifier:{out}"
             cap = "output_cap" if len(names) == 1 else f"output_cap:{out}"
             avg, rms = numeric(waves[f"rectifier:{out}"])
