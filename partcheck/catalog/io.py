@@ -191,6 +191,7 @@ def _read_xlsx(path: Path, sheet: str | None = None) -> Table | None:
         header_line: int | None = 1
         rows: list[list[object]] = []
         lines: list[int | None] = []
+        empty: list[tuple[int, int]] = []  # (row, column) of empty cells in data rows
         for number, values in enumerate(ws.iter_rows(values_only=True), start=1):
             cells = [_xlsx_cell(v) for v in values]
             if all(c is None or (isinstance(c, str) and not c.strip()) for c in cells):
@@ -203,11 +204,39 @@ def _read_xlsx(path: Path, sheet: str | None = None) -> Table | None:
                 continue
             rows.append(cells)
             lines.append(number)
+            empty.extend((number, i) for i, c in enumerate(cells) if c is None and i < len(header))
+        sheet_name = ws.title
     finally:
         book.close()
     if header is None:
         raise CatalogInputError("the sheet is empty; expected a header row", file=path)
+    if empty:
+        _refuse_uncomputed_formulas(path, sheet_name, header, empty)
     return Table(str(path), header, rows, lines, header_line)
+
+
+def _refuse_uncomputed_formulas(path: Path, sheet: str, header: list[str], empty: list[tuple[int, int]]) -> None:
+    """A formula cell whose result was never stored (a workbook written by a script) reads as
+    empty; importing it would silently drop a rating, so it is an error naming the cell."""
+    from openpyxl import load_workbook
+
+    book = load_workbook(path, read_only=True, data_only=False)
+    try:
+        wanted = set(empty)
+        found = []
+        for number, values in enumerate(book[sheet].iter_rows(values_only=True), start=1):
+            for i, value in enumerate(values):
+                if (number, i) in wanted and isinstance(value, str) and value.startswith("="):
+                    found.append((number, i, value))
+    finally:
+        book.close()
+    if found:
+        number, i, formula = found[0]
+        more = f" (and {len(found) - 1} more such cells)" if len(found) > 1 else ""
+        raise CatalogInputError(
+            f"the cell holds the formula {formula[:40]!r} with no stored result{more}; open and save the workbook "
+            "in a spreadsheet program (or paste values) so the computed ratings are stored, then import again",
+            file=path, line=number, column=header[i])
 
 
 def _read_json(path: Path) -> Table:
