@@ -453,6 +453,11 @@ def read_bom(
             raise exc.located(file=p, line=line_no, column=column_map["ref"]) from None
         if not refs:
             warnings.append(f"no reference designator in column {column_map['ref']!r}")
+        beyond = [c.strip() for c in cells[len(headers):] if c.strip()]
+        if beyond:  # a row wider than the header: a stray delimiter shifts cells into the wrong columns
+            warnings.append(f"{len(beyond)} cell{'s' if len(beyond) != 1 else ''} beyond the header's "
+                            f"{len(headers)} columns (ignored): {', '.join(repr(c[:20]) for c in beyond[:3])}; "
+                            "check for a stray delimiter")
         qty, qty_warning = _parse_qty(cell("qty"))
         if qty_warning:
             warnings.append(qty_warning)

@@ -249,3 +249,15 @@ def test_xlsx_content_under_a_csv_name(tmp_path):
     path = _xlsx(tmp_path / "bom.csv", {"S": [["Ref", "Value"], ["R1", "10k"]]})
     bom = read_bom(path)
     assert bom.sheet == "S" and bom.lines[0].values["resistance"] == 10_000.0
+
+
+def test_row_wider_than_header_warns_on_that_line(tmp_path):
+    """An unquoted comma in a description shifts cells past the header: a warning names the line."""
+    path = tmp_path / "wide.csv"
+    path.write_text("Reference,Quantity,Value,Description\nC1,1,10uF,MLCC 10uF 25V X7R 1206\n"
+                    "R1,1,10k,Res 10k, 1%, 0603\n", encoding="utf-8")
+    bom = read_bom(path)
+    assert bom.lines[0].warnings == []
+    assert bom.lines[1].line == 3
+    assert bom.lines[1].warnings == ["2 cells beyond the header's 4 columns (ignored): '1%', '0603'; "
+                                     "check for a stray delimiter"]
