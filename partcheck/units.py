@@ -123,6 +123,7 @@ _NUMBER = r"[+-]?(?:\d+(?:[.,]\d*)?|[.,]\d+)(?:[eE][+-]?\d+)?"
 _NUMBER_RE: Final = re.compile(rf"^\s*({_NUMBER})\s*(.*?)\s*$", re.DOTALL)
 _CODE_RE: Final = re.compile(r"^\s*([+-]?)(\d*)([A-Za-zµμ])(\d+)\s*([A-Za-zΩΩ]*)\s*$")
 _R_SUFFIX_RE: Final = re.compile(r"^\s*(\d+)[Rr]\s*$")
+_DIGIT_GROUPS: Final = re.compile(r"(?<=\d)[ \u2009\u202f](?=\d{3}(?!\d))")
 _PERCENT_RE: Final = re.compile(rf"^\s*(?:±|\+/-|\+-)?\s*({_NUMBER})\s*%\s*$")
 
 
@@ -211,6 +212,9 @@ def parse_quantity(text: str | float | int, kind: str | None = None, *, decimal_
         if m:
             return _check_finite(_scaled(_to_float(m.group(1), text, kind, decimal_comma), 0.01), text, kind)
 
+    # Digit groups of three separated by a space or thin space ("60 000 h", as format_quantity
+    # writes hours) are one number.
+    text = _DIGIT_GROUPS.sub("", text)
     m = _NUMBER_RE.match(text)
     if m:
         value = _to_float(m.group(1), text, kind, decimal_comma)

@@ -184,3 +184,11 @@ def test_format_then_parse_round_trip(value, negative, kind):
 def test_format_then_parse_round_trip_without_prefixes(value, kind):
     text = format_quantity(value, kind, digits=15)
     assert math.isclose(parse_quantity(text, kind), value, rel_tol=1e-13, abs_tol=1e-12), text
+
+
+def test_hours_round_trip_with_digit_groups():
+    """format_quantity writes hours in groups of three ("123 456 h"); parse_quantity reads them back."""
+    for hours in (60000.0, 123456.0, 2000.0):
+        assert parse_quantity(format_quantity(hours, "h"), "h") == hours
+    with pytest.raises(QuantityError):
+        parse_quantity("5 00 h", "h")  # not groups of three
