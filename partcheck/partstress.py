@@ -260,6 +260,7 @@ def bank_items(refs, parts: dict[str, Any], role, ctx: PartContext, policy, *, r
                     worst_ripple = total
                     ctx.bank_splits[role] = {
                         "corner": c.id, "harmonics": split.n_harmonics, "captured": split.captured,
+                        "i_bank_rms": total,
                         "v_pp": split.v_pp,
                         "caps": [{"ref": r, "part_number": parts[r].part_number, "i_rms": float(i),
                                   "c_eff": eff[r], "esr": parts[r].esr} for r, i in zip(caps, split.i_rms)]}

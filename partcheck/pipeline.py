@@ -20,6 +20,7 @@ from __future__ import annotations
 import dataclasses
 import datetime as _dt
 import hashlib
+import itertools
 import math
 from pathlib import Path
 from typing import Any, Sequence
@@ -82,13 +83,61 @@ def _with_catalog_vf(design: Design, rectifier_parts: dict[str, Any]) -> tuple[D
     return dataclasses.replace(design, outputs=tuple(outputs)), notes
 
 
-def _corners(design: Design) -> tuple[flyback.StressResult, list[partstress.Corner]]:
+def _corners(design: Design, suffix: str = "") -> tuple[flyback.StressResult, list[partstress.Corner]]:
     result = flyback.evaluate(design)
     corners = []
     for c in result.corners:
         waves = None if c.load == "surge" else flyback.corner_waveforms(design, c.id)
-        corners.append(partstress.Corner(c.id, c.load, c.vin, c.mode, c.fsw, c.t_amb, c.roles, waves))
+        corners.append(partstress.Corner(c.id + suffix, c.load, c.vin, c.mode, c.fsw, c.t_amb, c.roles, waves))
     return result, corners
+
+
+#: Tolerances the check applies to the design itself (the others are analysed by `partcheck stress`).
+_CHECK_TOLERANCES = ("lm", "llk", "fsw", "vf", "efficiency", "vclamp", "current_limit")
+
+
+def _scaled(design: Design, key: str, factor: float) -> Design:
+    """``design`` with one toleranced quantity multiplied by ``factor``."""
+    r = dataclasses.replace
+    if key in ("lm", "llk"):
+        return r(design, transformer=r(design.transformer, **{key: getattr(design.transformer, key) * factor}))
+    if key == "fsw" and design.converter.fsw is not None:
+        return r(design, converter=r(design.converter, fsw=design.converter.fsw * factor))
+    if key == "efficiency":
+        return r(design, converter=r(design.converter, efficiency=min(design.converter.efficiency * factor, 1.0)))
+    if key == "current_limit" and design.converter.current_limit is not None:
+        return r(design, converter=r(design.converter, current_limit=design.converter.current_limit * factor))
+    if key == "vclamp" and design.clamp is not None:
+        return r(design, clamp=r(design.clamp, vclamp=design.clamp.vclamp * factor))
+    if key == "vf":
+        return r(design, outputs=tuple(r(o, vf=o.vf * factor) for o in design.outputs))
+    return design
+
+
+def _tolerance_corners(design: Design) -> tuple[list[partstress.Corner], list[str]]:
+    """Every corner again at each extreme of the design's [tolerances] box (2^k settings).
+
+    Worst-case analysis by the extremes (common practice): for a stress monotone in each
+    toleranced quantity the worst setting is a vertex of the box.  Corner ids carry the setting,
+    e.g. ``vin_min-full@lm-10%,fsw+5%``.  A setting with no valid operating point is a note.
+    """
+    keys = [k for k in _CHECK_TOLERANCES if design.tolerances.get(k)]
+    if not keys:
+        return [], []
+    corners: list[partstress.Corner] = []
+    notes: list[str] = []
+    for signs in itertools.product((-1.0, 1.0), repeat=len(keys)):
+        variant = design
+        for key, sign in zip(keys, signs):
+            variant = _scaled(variant, key, 1.0 + sign * design.tolerances[key])
+        label = ",".join(f"{k}{'+' if sg > 0 else '-'}{design.tolerances[k]:.0%}" for k, sg in zip(keys, signs))
+        try:
+            corners += _corners(variant, f"@{label}")[1]
+        except DesignError as exc:
+            notes.append(f"tolerance extreme {label}: {exc.message}")
+    notes.insert(0, f"tolerances: every corner also evaluated at the {2 ** len(keys)} extremes of "
+                    f"{', '.join(f'{k} ±{design.tolerances[k]:.0%}' for k in keys)} (worst case by the extremes)")
+    return corners, notes
 
 
 @dataclasses.dataclass
@@ -198,9 +247,11 @@ def _prepare(design: Design, bom_data: Bom, cat, pins: dict[str, str], policy: P
             rect_parts[name] = assignment.records[refs[0]]
     design, vf_notes = _with_catalog_vf(design, rect_parts)
     stress_result, corners = _corners(design)
-    ctx = partstress.PartContext(design, corners)
+    extra_corners, tolerance_notes = _tolerance_corners(design)
+    ctx = partstress.PartContext(design, corners + extra_corners)
     items = _part_items(design, assignment, ctx, policy)
-    return _Prepared(design, matches, assignment, stress_result, ctx, items, records_by_pn, vf_notes)
+    return _Prepared(design, matches, assignment, stress_result, ctx, items, records_by_pn,
+                     vf_notes + tolerance_notes)
 
 
 def stress_report(design_path: str | Path | Design, *, bom: str | Path | None = None, db: str | None = None,
