@@ -149,7 +149,9 @@ def _worse(a: Finding, b: Finding) -> bool:
         return sa > sb
     ua = a.utilization if a.utilization is not None else math.inf
     ub = b.utilization if b.utilization is not None else math.inf
-    return ua > ub
+    # Equal within rounding (the same current limit reached at several tolerance settings): the
+    # corner seen first (the nominal one) stays, so the reported corner is not a rounding artefact.
+    return ua > ub and not math.isclose(ua, ub, rel_tol=1e-9)
 
 
 def assess(item: StressItem, policy: Policy) -> Finding:
