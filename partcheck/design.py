@@ -23,7 +23,7 @@ from pathlib import Path
 from typing import Any
 
 from .errors import DesignError, QuantityError
-from .units import format_quantity, parse_quantity
+from .units import as_date, format_quantity, parse_quantity
 
 #: Controller maximum duty when the design does not state one (common practice).
 DEFAULT_MAX_DUTY = 0.9
@@ -546,16 +546,10 @@ def _requirements(data: Any, path: Path | None) -> dict[str, float]:
 
 
 def _date(value: Any, r: _Reader, key: str) -> _dt.date:
-    if isinstance(value, _dt.datetime):
-        return value.date()
-    if isinstance(value, _dt.date):
-        return value
-    if isinstance(value, str):
-        try:
-            return _dt.date.fromisoformat(value.strip())
-        except ValueError:
-            pass
-    raise r.error(key, f"{_show(value)} is not a date; expected YYYY-MM-DD")
+    date = as_date(value)
+    if date is None:
+        raise r.error(key, f"{_show(value)} is not a date; expected YYYY-MM-DD")
+    return date
 
 
 def _waivers(data: Any, path: Path | None) -> tuple[dict[str, Any], ...]:

@@ -23,6 +23,7 @@ no prefix.
 
 from __future__ import annotations
 
+import datetime as _dt
 import math
 import re
 from decimal import Decimal, InvalidOperation
@@ -350,3 +351,18 @@ def format_quantity(value: float | None, kind: str | None = None, digits: int = 
         exponent += 3
         mantissa = value / 10.0**exponent
     return f"{_trim(mantissa, digits)} {_FORMAT_PREFIXES[exponent]}{unit}".rstrip()
+
+
+def as_date(value: object) -> _dt.date | None:
+    """A TOML date, datetime or ``YYYY-MM-DD`` text as a date; ``None`` when it is none of these
+    (the caller raises its own error, naming its file and key)."""
+    if isinstance(value, _dt.datetime):
+        return value.date()
+    if isinstance(value, _dt.date):
+        return value
+    if isinstance(value, str):
+        try:
+            return _dt.date.fromisoformat(value.strip())
+        except ValueError:
+            return None
+    return None

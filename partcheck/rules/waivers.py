@@ -25,6 +25,7 @@ from dataclasses import dataclass
 from typing import Any, Final
 
 from ..errors import PolicyError
+from ..units import as_date
 from .policy import PARAMETERS
 
 WAIVER_KEYS: Final = ("ref", "parameter", "reason", "approved_by", "date", "expires")
@@ -97,15 +98,9 @@ def parse_waivers(raw: Iterable[dict[str, Any]] | None, *, file: str | None = No
 
 
 def _date(value: Any, file: str | None, key: str) -> _dt.date:
-    if isinstance(value, _dt.datetime):
-        return value.date()
-    if isinstance(value, _dt.date):
-        return value
-    if isinstance(value, str):
-        try:
-            return _dt.date.fromisoformat(value.strip())
-        except ValueError:
-            pass
+    date = as_date(value)
+    if date is not None:
+        return date
     raise PolicyError(f"{value!r} is not an ISO date; expected YYYY-MM-DD such as 2026-03-02", file=file, key=key)
 
 
