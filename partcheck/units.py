@@ -66,6 +66,7 @@ UNIT_ALIASES: Final[dict[str, tuple[str, ...]]] = {
     "h": ("h", "hr", "hrs", "hours", "hour"),
     "K/W": ("K/W", "°C/W", "degC/W", "C/W"),
     "%": ("%",),
+    "T": ("T", "tesla"),
     "C": ("C",),  # electric charge (gate charge, recovered charge); "C" alone is °C where a temperature is expected
 }
 
@@ -85,6 +86,7 @@ KIND_NAMES: Final[dict[str | None, str]] = {
     "K/W": "a thermal resistance (K/W)",
     "%": "a percentage (%)",
     "C": "a charge (C)",
+    "T": "a flux density (T)",
     None: "a plain number",
 }
 
