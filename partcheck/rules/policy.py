@@ -9,6 +9,10 @@ The file format is our own and is documented, with a commented grammar, in
     fail_unassessed = true        # a part that cannot be assessed fails the design
     fail_unmatched = true         # a BOM line that matched no catalog part fails the design
 
+    [lifecycle]                   # what an obsolete or restricted catalog part does to the design
+    obsolete = "fail"             # "fail" (default) or "warn"
+    restricted = "fail"
+
     [rules.switch-voltage]        # one table per rule, keyed by its id
     category = "switch"           # + optional subtype = "...", dielectric = "..."
     parameter = "voltage"
@@ -32,8 +36,9 @@ from pathlib import Path
 from typing import Any, Final
 
 from ..catalog.models import CATEGORIES as _CATALOG_CATEGORIES
+from ..catalog.models import FIELDS as _FIELDS
 from ..errors import NotFoundError, PolicyError, QuantityError
-from ..units import format_quantity, parse_quantity
+from ..units import KIND_NAMES, format_quantity, parse_quantity
 
 #: Stress parameters a rule may limit, with the unit kind of their stress and limit.
 PARAMETERS: Final[dict[str, str]] = {
@@ -47,6 +52,7 @@ PARAMETERS: Final[dict[str, str]] = {
     "capacitance": "F",
     "life": "h",
     "saturation": "A",
+    "flux_density": "T",
 }
 
 #: Parameters where a larger stress is better (the stress is what the part delivers and the
@@ -67,7 +73,9 @@ DEFAULT_RATINGS: Final[dict[tuple[str, str], str]] = {
     ("switch", "temperature"): "tj_max",
     ("diode", "voltage"): "vrrm",
     ("diode", "current_avg"): "if_avg",
-    ("diode", "current_peak"): "ifsm",
+    # repetitive peak forward current, not ifsm (the non-repetitive surge rating, for inrush and
+    # start-up only): the rectifier carries its peak current every switching cycle
+    ("diode", "current_peak"): "i_frm",
     ("diode", "temperature"): "tj_max",
     ("clamp", "power"): "p_max",
     ("clamp", "temperature"): "tj_max",
@@ -81,6 +89,7 @@ DEFAULT_RATINGS: Final[dict[tuple[str, str], str]] = {
     ("resistor", "voltage"): "v_max",
     ("resistor", "temperature"): "t_max",
     ("magnetic", "saturation"): "isat",
+    ("magnetic", "flux_density"): "b_sat",
     ("magnetic", "voltage"): "v_isolation",
     ("magnetic", "temperature"): "t_max",
     ("optocoupler", "current_avg"): "if_max",
@@ -104,15 +113,23 @@ CONFIDENCES: Final = (
 #: The preset used when neither the command line nor the design file names a policy.
 DEFAULT_POLICY: Final = "industrial"
 
-POLICY_KEYS: Final = ("name", "description", "extends", "warn", "fail_unassessed", "fail_unmatched", "rules")
+#: Catalog ``status`` values the ``[lifecycle]`` table rules on (``approved`` or empty never
+#: makes a finding), and what each may do to the design.
+LIFECYCLE_STATUSES: Final = ("obsolete", "restricted")
+LIFECYCLE_ACTIONS: Final = ("fail", "warn")
+#: ``[lifecycle]`` when no policy in the ``extends`` chain sets it.
+DEFAULT_LIFECYCLE: Final[dict[str, str]] = {"obsolete": "fail", "restricted": "fail"}
+
+POLICY_KEYS: Final = ("name", "description", "extends", "warn", "fail_unassessed", "fail_unmatched", "lifecycle",
+                      "rules")
 SELECTOR_KEYS: Final = ("category", "subtype", "dielectric", "parameter")
 #: Keys that set the limit.  An override that gives any of them replaces all of the parent's.
 LIMIT_KEYS: Final = ("fraction", "max", "offset", "derate_above", "min", "min_fraction",
-                     "design_requirement", "min_rating", "rating")
+                     "design_requirement", "default_requirement", "min_rating", "rating")
 RULE_KEYS: Final = SELECTOR_KEYS + LIMIT_KEYS + ("warn", "source", "confidence", "note", "enabled")
 
 _UPPER_LIMIT_KEYS: Final = ("fraction", "max", "offset", "derate_above", "min_rating")
-_LOWER_LIMIT_KEYS: Final = ("min", "min_fraction", "design_requirement")
+_LOWER_LIMIT_KEYS: Final = ("min", "min_fraction", "design_requirement", "default_requirement")
 
 _PRESET_DIR: Final = "presets"
 
@@ -125,7 +142,8 @@ class Rule:
     smallest of ``fraction × rating`` (times the linear derating factor above ``derate_above``),
     ``rating − offset`` and ``max``.  Lower-bound parameters: the limit is the largest of
     ``min_fraction × rating``, ``min`` and (with ``design_requirement``) the design's own
-    requirement.  ``min_rating`` names a catalog column the stress must also stay at or above
+    requirement, or ``default_requirement`` when the design states none (see
+    :meth:`requirement`).  ``min_rating`` names a catalog column the stress must also stay at or above
     (a shunt reference's minimum cathode current).
 
     Temperatures are in °C, ``offset`` in K, life in hours, everything else SI.
@@ -147,6 +165,7 @@ class Rule:
     min: float | None = None
     min_fraction: float | None = None
     design_requirement: bool = False
+    default_requirement: float | None = None
     min_rating: str | None = None
     warn: float | None = None
     note: str = ""
@@ -175,6 +194,18 @@ class Rule:
             return None
         return DEFAULT_RATINGS.get((self.category, self.parameter))
 
+    def requirement(self, design_required: float | None) -> float | None:
+        """The required life [h] this rule takes from the design, or ``None``.
+
+        With ``design_requirement`` the design's own figure (``[requirements] life_hours``,
+        ``design_required``) when it states one, else ``default_requirement`` (``None`` when the
+        rule has none).  Without ``design_requirement``: ``None``.  The limit of a life rule is the
+        largest of this, ``min`` and ``min_fraction × rating``.
+        """
+        if not self.design_requirement:
+            return None
+        return design_required if design_required is not None else self.default_requirement
+
     def selector(self) -> str:
         """``capacitor/ceramic/X7R`` style text of what the rule applies to."""
         return "/".join(p for p in (self.category, self.subtype, self.dielectric) if p)
@@ -182,7 +213,7 @@ class Rule:
     def matches(self, category: str, subtype: str | None, dielectric: str | None, parameter: str) -> bool:
         if self.category != category or self.parameter != parameter:
             return False
-        if self.subtype is not None and self.subtype != subtype:
+        if self.subtype is not None and self.subtype != (subtype or "").lower():
             return False
         if self.dielectric is not None and (dielectric or "").upper() != self.dielectric:
             return False
@@ -199,7 +230,10 @@ class Rule:
             if self.min is not None:
                 parts.append(f"≥ {format_quantity(self.min, kind)}")
             if self.design_requirement:
-                parts.append("≥ the design's requirement")
+                text = "≥ the design's requirement"
+                if self.default_requirement is not None:
+                    text += f", else ≥ {format_quantity(self.default_requirement, kind)}"
+                parts.append(text)
             return " and ".join(parts)
         if self.fraction is not None:
             text = f"≤ {self.fraction:g} × {rating}"
@@ -210,7 +244,7 @@ class Rule:
                          "to zero at the part's maximum temperature")
             parts.append(text)
         if self.offset is not None:
-            parts.append(f"≤ {rating} − {format_quantity(self.offset, 'K')}")
+            parts.append(f"≤ {rating} − {format_quantity(self.offset, 'K')}" if self.offset else f"≤ {rating}")
         if self.max is not None:
             parts.append(f"≤ {format_quantity(self.max, kind)}")
         text = " and ".join(parts)
@@ -228,6 +262,8 @@ class Rule:
                 data[key] = value
         if self.design_requirement:
             data["design_requirement"] = True
+        if self.default_requirement is not None:
+            data["default_requirement"] = self.default_requirement
         data.update(limit=self.describe(), unit=self.kind, source=self.source, confidence=self.confidence,
                     note=self.note, origin=self.origin)
         return data
@@ -243,6 +279,9 @@ class Policy:
     warn: float | None = None
     fail_unassessed: bool = True
     fail_unmatched: bool = True
+    #: ``[lifecycle]``: catalog status (``obsolete``, ``restricted``) → ``"fail"`` or ``"warn"``;
+    #: both keys always present.
+    lifecycle: dict[str, str] = field(default_factory=lambda: dict(DEFAULT_LIFECYCLE), hash=False)
     origin: str = ""  # the file or "preset NAME" this policy was read from
     chain: tuple[str, ...] = field(default=())  # this file first, then what it extends, ...
 
@@ -267,6 +306,11 @@ class Policy:
                     best = rule
         return best
 
+    def lifecycle_for(self, status: str | None) -> str | None:
+        """``"fail"`` or ``"warn"`` for a part whose catalog status is ``status``; ``None`` for
+        an approved part (``approved``, empty or ``None``).  Compared case-insensitively."""
+        return self.lifecycle.get((status or "").strip().lower())
+
     def warn_for(self, rule: Rule) -> float | None:
         """The warn band of ``rule`` (its own, else the policy default; ``None`` for no band)."""
         return rule.warn if rule.warn is not None else self.warn
@@ -274,7 +318,8 @@ class Policy:
     def to_dict(self) -> dict[str, Any]:
         return {"name": self.name, "description": self.description, "origin": self.origin,
                 "extends": list(self.chain[1:]), "warn": self.warn, "fail_unassessed": self.fail_unassessed,
-                "fail_unmatched": self.fail_unmatched, "rules": [rule.to_dict() for rule in self.rules]}
+                "fail_unmatched": self.fail_unmatched, "lifecycle": dict(self.lifecycle),
+                "rules": [rule.to_dict() for rule in self.rules]}
 
 
 # --------------------------------------------------------------------------------------------
@@ -370,6 +415,7 @@ def _load(text: str, *, file: str, base_dir: Path, chain: tuple[str, ...]) -> Po
         warn = _warn_value(doc["warn"], src, "warn")
     fail_unassessed = _bool(doc, "fail_unassessed", src, parent.fail_unassessed if parent else True)
     fail_unmatched = _bool(doc, "fail_unmatched", src, parent.fail_unmatched if parent else True)
+    lifecycle = _lifecycle(doc, src, parent.lifecycle if parent else DEFAULT_LIFECYCLE)
 
     rules: dict[str, Rule] = {r.id: r for r in parent.rules} if parent else {}
     raw_rules = doc.get("rules", {})
@@ -384,7 +430,7 @@ def _load(text: str, *, file: str, base_dir: Path, chain: tuple[str, ...]) -> Po
 
     _check_unique_selectors(list(rules.values()), set(raw_rules), src)
     return Policy(name=name, description=description, rules=tuple(rules.values()), warn=warn,
-                  fail_unassessed=fail_unassessed, fail_unmatched=fail_unmatched,
+                  fail_unassessed=fail_unassessed, fail_unmatched=fail_unmatched, lifecycle=lifecycle,
                   origin=src.label,
                   chain=parent.chain if parent else chain)
 
@@ -488,10 +534,33 @@ def _build_rule(rule_id: str, table: Any, inherited: Rule | None, src: _Source) 
         values["design_requirement"] = _bool(table, "design_requirement", src, False, f"{where}.design_requirement")
         if values["design_requirement"] and parameter != "life":
             raise src.error("'design_requirement' applies to life rules only", f"{where}.design_requirement")
+        values["default_requirement"] = _quantity(table, "default_requirement", "h", src, where)
+        if values["default_requirement"] is not None:
+            dotted = f"{where}.default_requirement"
+            if parameter != "life":
+                raise src.error("'default_requirement' applies to life rules only", dotted)
+            if values["default_requirement"] <= 0:
+                raise src.error(f"default_requirement must be a life above 0 h, got {table['default_requirement']!r}",
+                                dotted)
+            if not values["design_requirement"]:
+                raise src.error("'default_requirement' is the life required when the design states none, so it "
+                                "needs design_requirement = true; for a fixed minimum whatever the design says, "
+                                "use min = \"...\"", dotted)
         values["rating"] = _string(table, "rating", src, None, f"{where}.rating")
         values["min_rating"] = _string(table, "min_rating", src, None, f"{where}.min_rating")
-        if not any(values[k] not in (None, False) for k in ("fraction", "max", "offset", "min", "min_fraction",
-                                                              "design_requirement", "min_rating")):
+        for key in ("rating", "min_rating"):
+            if values[key] is not None:
+                _check_column(key, values[key], category, parameter, src, f"{where}.{key}")
+        if values["rating"] is not None:
+            uses_rating = (any(values[k] is not None for k in ("fraction", "offset", "min_fraction"))
+                           or (not lower and values["max"] is None and values["min_rating"] is not None))
+            if not uses_rating:
+                uses = "min_fraction" if lower else "fraction or offset"
+                raise src.error(f"rating {values['rating']!r} is the column a {uses} applies to, and this rule "
+                                f"gives none; drop 'rating' or give {uses}", f"{where}.rating")
+        # "is not": an offset of 0 K is a limit (the rating itself), though 0.0 == False
+        if not any(values[k] is not None and values[k] is not False
+                   for k in ("fraction", "max", "offset", "min", "min_fraction", "design_requirement", "min_rating")):
             expected = ("min_fraction, min or design_requirement" if lower
                         else "fraction, max, offset or min_rating")
             raise src.error(f"rule {rule_id!r} sets no limit; give {expected}", where)
@@ -566,6 +635,58 @@ def _selector_value(key: str, table: dict, values: dict, src: _Source, where: st
     return value
 
 
+def _check_column(key: str, column: str, category: str, parameter: str, src: _Source, dotted: str) -> None:
+    """``rating`` / ``min_rating`` must name a numeric catalog column of the rule's category
+    whose unit kind is the parameter's (``catalog.models.FIELDS``)."""
+    kind = PARAMETERS[parameter]
+    wanted = KIND_NAMES.get(kind, kind)
+    fitting = [n for n, f in _FIELDS.items() if not f.text and category in f.categories and f.kind == kind]
+    default = DEFAULT_RATINGS.get((category, parameter))
+    if default in fitting:
+        fitting.remove(default)
+        fitting.insert(0, default)
+    such_as = (f"such as {fitting[0]}" if fitting
+               else f"(the catalog has no {category} column of that kind)")
+    spec = _FIELDS.get(column)
+    if spec is None or spec.text:
+        if spec is None:
+            numeric = [n for n, f in _FIELDS.items() if not f.text]
+            hint = _suggest(column, fitting) or _suggest(column, numeric)
+            what = f"{key} names an unknown catalog column {column!r}{hint}"
+        else:
+            what = f"{key} {column!r} is a text column of the catalog, not a rating"
+        raise src.error(f"{what}; a {category} {parameter} rule needs {wanted} column {such_as}", dotted)
+    if category not in spec.categories:
+        raise src.error(f"{key} {column!r} is a column of {', '.join(spec.categories)} parts, not of {category} "
+                        f"parts; a {category} {parameter} rule needs {wanted} column {such_as}", dotted)
+    if spec.kind != kind:
+        raise src.error(f"{key} {column!r} is {KIND_NAMES.get(spec.kind, spec.kind)} column; a {parameter} rule "
+                        f"needs {wanted} column {such_as}", dotted)
+
+
+def _lifecycle(doc: dict, src: _Source, inherited: dict[str, str]) -> dict[str, str]:
+    """The ``[lifecycle]`` table over the inherited settings (both keys always present)."""
+    result = dict(DEFAULT_LIFECYCLE)
+    result.update(inherited)
+    if "lifecycle" not in doc:
+        return result
+    table = doc["lifecycle"]
+    if not isinstance(table, dict):
+        raise src.error("'lifecycle' must be a table: [lifecycle] with obsolete = \"fail\" | \"warn\" and "
+                        "restricted = \"fail\" | \"warn\"", "lifecycle")
+    for key, value in table.items():
+        dotted = f"lifecycle.{key}"
+        if key not in LIFECYCLE_STATUSES:
+            raise src.error(f"unknown lifecycle status {key!r}{_suggest(key, LIFECYCLE_STATUSES)}; expected one of "
+                            f"{', '.join(LIFECYCLE_STATUSES)} (an approved part never makes a lifecycle finding)",
+                            dotted)
+        if value not in LIFECYCLE_ACTIONS:
+            raise src.error(f"lifecycle {key} must be \"fail\" or \"warn\", got {value!r}"
+                            f"{_suggest(value, LIFECYCLE_ACTIONS) if isinstance(value, str) else ''}", dotted)
+        result[key] = value
+    return result
+
+
 def _fraction(table: dict, key: str, src: _Source, where: str) -> float | None:
     if key not in table:
         return None
@@ -605,7 +726,7 @@ def _quantity(table: dict, key: str, kind: str, src: _Source, where: str) -> flo
     raw = table[key]
     dotted = f"{where}.{key}"
     example = {"degC": "\"125 degC\"", "K": "\"25 K\"", "h": "\"60000 h\"", "V": "\"40 V\"", "A": "\"2 A\"",
-               "W": "\"0.25 W\"", "F": "\"10 uF\""}.get(kind, "a quantity with its unit")
+               "W": "\"0.25 W\"", "F": "\"10 uF\"", "T": "\"0.3 T\""}.get(kind, "a quantity with its unit")
     if not isinstance(raw, str):
         raise src.error(f"{key} must be a quantity with its unit as a string, such as {example}; got {raw!r}", dotted)
     try:
@@ -667,6 +788,8 @@ class _Source:
                 if re.match(rf"^\s*[\"']?{re.escape(parts[0])}[\"']?\s*=", line):
                     return no
             return None
+        if parts[0] != "rules":  # a policy-level table: [lifecycle] obsolete = ...
+            return self._line_in_table(parts[0], parts[1])
         table, key = (".".join(parts[:2]), parts[2]) if len(parts) > 2 else (dotted, None)
         start = None
         for no, line in enumerate(self.lines, 1):
@@ -691,6 +814,30 @@ class _Source:
                 return no
         return start
 
+    def _line_in_table(self, table: str, key: str) -> int | None:
+        """Line of ``key`` in the top-level table ``[table]`` (or of ``table.key = ...`` / an inline
+        ``table = {...}`` before the first header)."""
+        start = None
+        for no, line in enumerate(self.lines, 1):
+            m = self._HEADER.match(line)
+            if m and self._norm(m.group(1)) == table:
+                start = no
+                break
+        if start is not None:
+            for no in range(start + 1, len(self.lines) + 1):
+                line = self.lines[no - 1]
+                if self._HEADER.match(line):
+                    break
+                if re.match(rf"^\s*[\"']?{re.escape(key)}[\"']?\s*=", line):
+                    return no
+            return start
+        for no, line in enumerate(self.lines, 1):
+            if self._HEADER.match(line):
+                break
+            if re.match(rf"^\s*[\"']?{re.escape(table)}[\"']?\s*(\.\s*[\"']?{re.escape(key)}[\"']?\s*)?=", line):
+                return no
+        return None
+
     def error(self, message: str, dotted: str | None) -> PolicyError:
         return PolicyError(message, file=self.file, line=self.line_of(dotted), key=dotted)
 
@@ -702,11 +849,12 @@ def effective_rules_table(policy: Policy) -> list[dict[str, Any]]:
         warn = policy.warn_for(rule)
         rows.append({"id": rule.id, "applies_to": rule.selector(), "parameter": rule.parameter,
                      "limit": rule.describe(), "warn": f"{warn:g}" if warn is not None else "—",
-                     "source": rule.source, "confidence": rule.confidence})
+                     "source": rule.source, "confidence": rule.confidence, "note": rule.note})
     return rows
 
 
 __all__ = [
-    "CATEGORIES", "CONFIDENCES", "DEFAULT_POLICY", "DEFAULT_RATINGS", "LARGER_IS_BETTER", "PARAMETERS", "Policy",
-    "Rule", "effective_rules_table", "list_presets", "load_policy", "load_policy_file", "load_preset", "loads_policy",
+    "CATEGORIES", "CONFIDENCES", "DEFAULT_LIFECYCLE", "DEFAULT_POLICY", "DEFAULT_RATINGS", "LARGER_IS_BETTER",
+    "LIFECYCLE_ACTIONS", "LIFECYCLE_STATUSES", "PARAMETERS", "POLICY_KEYS", "RULE_KEYS", "Policy", "Rule",
+    "effective_rules_table", "list_presets", "load_policy", "load_policy_file", "load_preset", "loads_policy",
 ]

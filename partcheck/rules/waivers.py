@@ -13,7 +13,8 @@ and :func:`parse_waivers` validates them::
 
 :func:`partcheck.rules.evaluate.evaluate` applies them: a finding whose every reference is
 covered keeps its numbers and shows ``waived``; when a covering waiver has expired
-(``expires < today``) the finding fails and its detail says so.
+(``expires < today``) the finding fails and its detail says so.  A waiver dated after the
+check's date is refused when it is read: nobody can have approved it yet.
 """
 
 from __future__ import annotations
@@ -29,6 +30,10 @@ from ..units import as_date
 from .policy import PARAMETERS
 
 WAIVER_KEYS: Final = ("ref", "parameter", "reason", "approved_by", "date", "expires")
+#: What a waiver may cover: every limited stress, ``lifecycle`` (the finding for an obsolete
+#: or restricted part, made by the evaluator from the policy's ``[lifecycle]`` table) and
+#: ``insulation`` (never assessed by partcheck: a waiver records who reviewed it and where).
+WAIVER_PARAMETERS: Final = (*PARAMETERS, "lifecycle", "insulation")
 _REQUIRED: Final = ("ref", "parameter", "reason", "approved_by", "date")
 
 
@@ -56,12 +61,15 @@ class Waiver:
                 "expires": self.expires.isoformat() if self.expires else None}
 
 
-def parse_waivers(raw: Iterable[dict[str, Any]] | None, *, file: str | None = None) -> list[Waiver]:
+def parse_waivers(raw: Iterable[dict[str, Any]] | None, *, file: str | None = None,
+                  today: _dt.date | None = None) -> list[Waiver]:
     """Validate the design file's ``[[waiver]]`` tables.
 
-    Errors are :class:`PolicyError` with ``key = "waiver[N].<key>"`` (N counts from 0 in file
-    order) and say what was expected.
+    ``today`` is the check's date (``None``: today's date); a waiver dated after it is an error,
+    as is one that expires before its date.  Errors are :class:`PolicyError` with
+    ``key = "waiver[N].<key>"`` (N counts from 0 in file order) and say what was expected.
     """
+    today = today if today is not None else _dt.date.today()
     waivers: list[Waiver] = []
     for index, entry in enumerate(raw or ()):
         where = f"waiver[{index}]"
@@ -82,12 +90,16 @@ def parse_waivers(raw: Iterable[dict[str, Any]] | None, *, file: str | None = No
                 raise PolicyError(f"{key!r} must be a non-empty string, got {entry[key]!r}", file=file,
                                   key=f"{where}.{key}")
         parameter = entry["parameter"].strip()
-        if parameter not in PARAMETERS:
-            close = difflib.get_close_matches(parameter, list(PARAMETERS), n=1)
+        if parameter not in WAIVER_PARAMETERS:
+            close = difflib.get_close_matches(parameter, list(WAIVER_PARAMETERS), n=1)
             hint = f" (did you mean {close[0]!r}?)" if close else ""
-            raise PolicyError(f"unknown parameter {parameter!r}{hint}; expected one of {', '.join(PARAMETERS)}",
+            raise PolicyError(f"unknown parameter {parameter!r}{hint}; expected one of {', '.join(WAIVER_PARAMETERS)}",
                               file=file, key=f"{where}.parameter")
         date = _date(entry["date"], file, f"{where}.date")
+        if date > today:
+            raise PolicyError(f"waiver for {entry['ref'].strip()} {parameter} is dated {date.isoformat()}, after the "
+                              f"check's date {today.isoformat()}: a waiver cannot be approved in the future",
+                              file=file, key=f"{where}.date")
         expires = _date(entry["expires"], file, f"{where}.expires") if entry.get("expires") not in (None, "") else None
         if expires is not None and expires < date:
             raise PolicyError(f"expires {expires.isoformat()} is before the approval date {date.isoformat()}",

@@ -186,7 +186,8 @@ def test_unknown_rule_key_with_suggestion(write):
     assert _error(path) == (
         f"{path}, line 4, key 'rules.sw.fracton': unknown rule key 'fracton' (did you mean 'fraction'?); "
         "expected one of category, subtype, dielectric, parameter, fraction, max, offset, derate_above, min, "
-        "min_fraction, design_requirement, min_rating, rating, warn, source, confidence, note, enabled"
+        "min_fraction, design_requirement, default_requirement, min_rating, rating, warn, source, confidence, note, "
+        "enabled"
     )
 
 
@@ -194,7 +195,7 @@ def test_unknown_policy_setting(write):
     path = write("p.toml", 'name = "x"\nextend = "industrial"\n')
     assert _error(path) == (
         f"{path}, line 2, key 'extend': unknown policy setting 'extend' (did you mean 'extends'?); expected one "
-        "of name, description, extends, warn, fail_unassessed, fail_unmatched, rules"
+        "of name, description, extends, warn, fail_unassessed, fail_unmatched, lifecycle, rules"
     )
 
 
@@ -266,7 +267,7 @@ def test_unknown_category_and_parameter(write):
     assert _error(path) == (
         f"{path}, line 3, key 'rules.x.parameter': unknown parameter 'volts' (did you mean 'voltage'?); expected "
         "one of voltage, current_rms, current_peak, current_avg, power, temperature, ripple_current, "
-        "capacitance, life, saturation"
+        "capacitance, life, saturation, flux_density"
     )
 
 
@@ -309,7 +310,7 @@ def test_limit_key_of_the_wrong_direction(write):
     path = write("p.toml", RULE.format(id="c", category="capacitor", parameter="capacitance", limit="fraction = 0.5"))
     assert _error(path) == (
         f"{path}, line 4, key 'rules.c.fraction': 'fraction' does not apply here; a capacitance rule sets a "
-        "minimum: use min / min_fraction / design_requirement"
+        "minimum: use min / min_fraction / design_requirement / default_requirement"
     )
 
 
@@ -437,3 +438,91 @@ def test_life_minimum_in_hours(write):
         f"{path}, line 4, key 'rules.l.min': '60000 V' is not a duration in hours (h) (the unit says a voltage "
         '(V)); min expects such as "60000 h"'
     )
+
+
+# --------------------------------------------------------------------------------------------
+# default_requirement: the life required when the design file states none
+
+
+LIFE = 'design_requirement = true\ndefault_requirement = "20000 h"'
+
+
+def test_default_requirement_parsed_described_and_serialised(write):
+    path = write("p.toml", RULE.format(id="l", category="capacitor", parameter="life", limit=LIFE))
+    rule = load_policy_file(path).rule("l")
+    assert (rule.design_requirement, rule.default_requirement) == (True, 20000.0)
+    assert rule.describe() == "≥ the design's requirement, else ≥ 20 000 h"
+    data = rule.to_dict()
+    assert (data["design_requirement"], data["default_requirement"], data["limit"]) == (
+        True, 20000.0, "≥ the design's requirement, else ≥ 20 000 h")
+
+
+def test_requirement_is_the_designs_else_the_default(write):
+    path = write("p.toml", RULE.format(id="l", category="capacitor", parameter="life", limit=LIFE)
+                 + RULE.format(id="m", category="resistor", parameter="power", limit="fraction = 0.5"))
+    rule = load_policy_file(path).rule("l")
+    assert rule.requirement(None) == 20000.0
+    assert rule.requirement(60000.0) == 60000.0  # the design's own figure replaces the default
+    assert rule.requirement(10000.0) == 10000.0  # even a shorter one: the design file is the requirement
+    only_design = load_preset("industrial").rule("electrolytic-life")
+    assert only_design.requirement(60000.0) == 60000.0
+    assert load_policy_file(path).rule("m").requirement(60000.0) is None
+
+
+def test_default_requirement_with_a_minimum(write):
+    path = write("p.toml", RULE.format(id="l", category="capacitor", parameter="life",
+                                       limit=LIFE + '\nmin = "8000 h"'))
+    assert load_policy_file(path).rule("l").describe() == "≥ 8 000 h and ≥ the design's requirement, else ≥ 20 000 h"
+
+
+def test_default_requirement_needs_design_requirement(write):
+    path = write("p.toml", RULE.format(id="l", category="capacitor", parameter="life",
+                                       limit='default_requirement = "20000 h"'))
+    assert _error(path) == (
+        f"{path}, line 4, key 'rules.l.default_requirement': 'default_requirement' is the life required when the "
+        "design states none, so it needs design_requirement = true; for a fixed minimum whatever the design "
+        'says, use min = "..."'
+    )
+
+
+def test_default_requirement_only_on_life_rules(write):
+    path = write("p.toml", RULE.format(id="c", category="capacitor", parameter="capacitance",
+                                       limit='min_fraction = 0.5\ndefault_requirement = "20000 h"'))
+    assert _error(path) == (f"{path}, line 5, key 'rules.c.default_requirement': 'default_requirement' applies to "
+                            "life rules only")
+    path = write("q.toml", RULE.format(id="v", category="capacitor", parameter="voltage",
+                                       limit='fraction = 0.5\ndefault_requirement = "20000 h"'))
+    assert "'default_requirement' does not apply here; a voltage rule sets a maximum" in _error(path)
+
+
+@pytest.mark.parametrize("value, message", [
+    ('"0 h"', "default_requirement must be a life above 0 h, got '0 h'"),
+    ('"20000 V"', "'20000 V' is not a duration in hours (h) (the unit says a voltage (V)); default_requirement "
+                  'expects such as "60000 h"'),
+    ("20000", "default_requirement must be a quantity with its unit as a string, such as \"60000 h\"; got 20000"),
+])
+def test_default_requirement_value(write, value, message):
+    path = write("p.toml", RULE.format(id="l", category="capacitor", parameter="life",
+                                       limit=f"design_requirement = true\ndefault_requirement = {value}"))
+    assert _error(path) == f"{path}, line 5, key 'rules.l.default_requirement': {message}"
+
+
+def test_override_with_a_minimum_drops_the_inherited_default(write):
+    path = write("p.toml", 'extends = "industrial"\n[rules.electrolytic-life]\nmin = "60000 h"\n'
+                           'source = "module requirement"\nconfidence = "read"\n')
+    life = load_policy_file(path).rule("electrolytic-life")
+    assert (life.min, life.design_requirement, life.default_requirement) == (60000.0, False, None)
+    warn_only = write("q.toml", 'extends = "industrial"\n[rules.electrolytic-life]\nwarn = 0.8\n')
+    kept = load_policy_file(warn_only).rule("electrolytic-life")
+    assert (kept.design_requirement, kept.default_requirement) == (True, 50000.0)
+
+
+def test_subtype_compared_case_insensitively():
+    policy = load_preset("industrial")
+    assert policy.rule_for("diode", "voltage", "Schottky").id == "diode-schottky-voltage"
+
+
+def test_zero_offset_reads_as_the_rating(write):
+    path = write("p.toml", RULE.format(id="t", category="capacitor", parameter="temperature", limit='offset = "0 K"'))
+    rule = load_policy_file(path).rule("t")
+    assert (rule.offset, rule.describe()) == (0.0, "≤ t_max")

@@ -25,6 +25,8 @@ INDUSTRIAL = {
     "diode-voltage": ("diode", None, None, "voltage", {"fraction": 0.8}, CP, "common practice"),
     "diode-schottky-voltage": ("diode", "schottky", None, "voltage", {"fraction": 0.75}, CP, "common practice"),
     "diode-current-avg": ("diode", None, None, "current_avg", {"fraction": 0.8}, CP, "common practice"),
+    # against i_frm (repetitive peak), the default rating; ifsm is the surge rating
+    "diode-current-peak": ("diode", None, None, "current_peak", {"fraction": 0.8}, CP, "repetitive peak rating i_frm"),
     "diode-temperature": ("diode", None, None, "temperature", {"offset": 25.0}, CP, "common practice"),
     "clamp-power": ("clamp", None, None, "power", {"fraction": 0.6}, CP, "common practice"),
     "clamp-temperature": ("clamp", None, None, "temperature", {"offset": 25.0}, CP, "common practice"),
@@ -41,16 +43,27 @@ INDUSTRIAL = {
     # IPC-9592A Al-electrolytic ripple ≤ 80 %: Cervone APEC 2012 slide 3 (read)
     "electrolytic-ripple": ("capacitor", "aluminium_electrolytic", None, "ripple_current", {"fraction": 0.8},
                             READ, "IPC-9592A"),
-    "electrolytic-life": ("capacitor", "aluminium_electrolytic", None, "life", {"design_requirement": True}, CP,
-                          "common practice"),
+    # hot spot ≤ t_max (offset 0 K); RIAC's stricter Tmax − 20 °C quoted for comparison
+    "electrolytic-temperature": ("capacitor", "aluminium_electrolytic", None, "temperature", {"offset": 0.0}, CP,
+                                 "maximum category temperature"),
+    # the design's requirement, else 50 000 h for industrial equipment (common practice)
+    "electrolytic-life": ("capacitor", "aluminium_electrolytic", None, "life",
+                          {"design_requirement": True, "default_requirement": 50000.0}, CP, "50 000 h"),
     "polymer-voltage": ("capacitor", "polymer", None, "voltage", {"fraction": 0.8}, CP, "common practice"),
     "polymer-ripple": ("capacitor", "polymer", None, "ripple_current", {"fraction": 0.8}, CP, "common practice"),
+    "polymer-temperature": ("capacitor", "polymer", None, "temperature", {"offset": 0.0}, CP,
+                            "maximum category temperature"),
+    # every other subtype (tantalum, film): hot spot ≤ t_max, ripple ≤ 80 % of rated
+    "capacitor-temperature": ("capacitor", None, None, "temperature", {"offset": 0.0}, CP, "common practice"),
+    "capacitor-ripple": ("capacitor", None, None, "ripple_current", {"fraction": 0.8}, CP, "common practice"),
     # NASA EEE-INST-002 §C2 solid tantalum 0.50 (from memory, high) quoted as a cross-check
     "tantalum-voltage": ("capacitor", "tantalum", None, "voltage", {"fraction": 0.5}, CP, "§C2"),
     "resistor-power": ("resistor", None, None, "power", {"fraction": 0.6, "derate_above": 70.0}, CP,
                        "common practice"),
     "resistor-voltage": ("resistor", None, None, "voltage", {"fraction": 0.8}, CP, "common practice"),
     "magnetic-saturation": ("magnetic", None, None, "saturation", {"fraction": 0.8}, CP, "common practice"),
+    # b_peak ≤ 0.8 × b_sat at the core's hot temperature
+    "magnetic-flux-density": ("magnetic", None, None, "flux_density", {"fraction": 0.8}, CP, "common practice"),
     "magnetic-temperature": ("magnetic", None, None, "temperature", {"offset": 20.0}, CP, "common practice"),
     "optocoupler-led-current": ("optocoupler", None, None, "current_avg", {"fraction": 0.5}, CP,
                                 "common practice"),
@@ -58,6 +71,7 @@ INDUSTRIAL = {
                                 "common practice"),
     "reference-cathode-current": ("reference", None, None, "current_avg", {"fraction": 0.8, "min_rating": "ika_min"},
                                   CP, "common practice"),
+    "reference-voltage": ("reference", None, None, "voltage", {"fraction": 0.8}, CP, "common practice"),
 }
 
 # NASA EEE-INST-002 (2003/2008): no derating table was read; every figure from memory
@@ -146,7 +160,7 @@ RIAC = {
 
 PRESETS = {"industrial": INDUSTRIAL, "nasa-eee-inst-002": NASA, "ecss-q-st-30-11": ECSS, "riac-severe": RIAC}
 
-LIMIT_KEYS = ("fraction", "max", "offset", "derate_above", "min", "min_fraction", "min_rating")
+LIMIT_KEYS = ("fraction", "max", "offset", "derate_above", "min", "min_fraction", "default_requirement", "min_rating")
 
 
 def _limits(rule) -> dict:
@@ -202,3 +216,48 @@ def test_riac_severe_check_values():
 def test_default_preset_settings():
     preset = load_preset("industrial")
     assert (preset.warn, preset.fail_unassessed, preset.fail_unmatched) == (0.9, True, True)
+    assert preset.lifecycle == {"obsolete": "fail", "restricted": "fail"}
+
+
+@pytest.mark.parametrize("name", ["nasa-eee-inst-002", "ecss-q-st-30-11", "riac-severe"])
+def test_standard_presets_keep_the_default_lifecycle(name):
+    """The standards' derating tables say nothing about obsolete parts: the defaults apply."""
+    assert load_preset(name).lifecycle == {"obsolete": "fail", "restricted": "fail"}
+
+
+# What partstress computes, per category (switch and diode power are losses with no rating to
+# compare: reported, never limited).
+ENGINE_STRESSES = {
+    ("switch", None): ("voltage", "current_peak", "current_rms", "temperature"),
+    ("diode", None): ("voltage", "current_avg", "current_peak", "temperature"),
+    ("clamp", None): ("power", "temperature"),
+    ("capacitor", "ceramic"): ("voltage", "capacitance", "temperature", "ripple_current"),
+    ("capacitor", "aluminium_electrolytic"): ("voltage", "ripple_current", "temperature", "life"),
+    ("capacitor", "polymer"): ("voltage", "ripple_current", "temperature"),
+    ("capacitor", "tantalum"): ("voltage", "ripple_current", "temperature"),
+    ("capacitor", "film"): ("voltage", "ripple_current", "temperature"),
+    ("resistor", None): ("power", "voltage"),
+    ("magnetic", None): ("saturation", "flux_density"),
+    ("optocoupler", None): ("current_avg",),
+    ("reference", None): ("current_avg", "voltage"),
+}
+
+
+@pytest.mark.parametrize("selector", sorted(ENGINE_STRESSES, key=str), ids=lambda s: "/".join(p for p in s if p))
+def test_industrial_limits_every_stress_the_engine_computes(selector):
+    preset = load_preset("industrial")
+    category, subtype = selector
+    for parameter in ENGINE_STRESSES[selector]:
+        assert preset.rule_for(category, parameter, subtype) is not None, (category, subtype, parameter)
+
+
+def test_industrial_hot_spot_and_life_figures():
+    preset = load_preset("industrial")
+    for subtype in ("aluminium_electrolytic", "polymer", "tantalum", "film"):
+        rule = preset.rule_for("capacitor", "temperature", subtype)
+        assert (rule.offset, rule.describe()) == (0.0, "≤ t_max"), subtype
+    life = preset.rule_for("capacitor", "life", "aluminium_electrolytic")
+    assert (life.requirement(None), life.requirement(60000.0)) == (50000.0, 60000.0)
+    assert life.describe() == "≥ the design's requirement, else ≥ 50 000 h"
+    assert preset.rule_for("diode", "current_peak", "ultrafast").rating_name == "i_frm"
+    assert preset.rule_for("magnetic", "flux_density", "transformer").rating_name == "b_sat"

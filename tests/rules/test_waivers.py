@@ -111,7 +111,7 @@ GOOD = {"ref": "D1", "parameter": "voltage", "reason": "r", "approved_by": "a", 
     [
         ({"parameter": "volts"}, ("design.toml, key 'waiver[0].parameter': unknown parameter 'volts' (did you mean "
          "'voltage'?); expected one of voltage, current_rms, current_peak, current_avg, power, temperature, "
-         "ripple_current, capacitance, life, saturation")),
+         "ripple_current, capacitance, life, saturation, flux_density, lifecycle")),
         ({"approved": "x"}, ("design.toml, key 'waiver[0].approved': unknown waiver key 'approved' (did you mean "
          "'approved_by'?); expected ref, parameter, reason, approved_by, date, expires")),
         ({"reason": None}, ("design.toml, key 'waiver[0].reason': a waiver needs 'reason' (ref, parameter, reason, "
@@ -135,3 +135,46 @@ def test_second_waiver_is_counted_in_the_key():
     with pytest.raises(PolicyError) as info:
         parse_waivers([GOOD, {**GOOD, "parameter": "ripple"}], file="d.toml")
     assert info.value.key == "waiver[1].parameter"
+
+
+# --------------------------------------------------------------------------------------------
+# dates: a waiver cannot be approved after the check's date, nor expire before it was approved
+
+
+def test_waiver_dated_in_the_future_is_refused():
+    future = {"ref": "R5", "parameter": "voltage", "reason": "r", "approved_by": "a", "date": dt.date(2027, 1, 5)}
+    with pytest.raises(PolicyError) as info:
+        parse_waivers([GOOD, future], file="design.toml", today=TODAY)
+    assert str(info.value) == ("design.toml, key 'waiver[1].date': waiver for R5 voltage is dated 2027-01-05, after "
+                               "the check's date 2026-12-01: a waiver cannot be approved in the future")
+    assert (info.value.file, info.value.key) == ("design.toml", "waiver[1].date")
+
+
+def test_waiver_dated_on_the_checks_date_is_valid():
+    (w,) = parse_waivers([{**GOOD, "date": "2026-12-01"}], today=TODAY)
+    assert w.date == TODAY
+    with pytest.raises(PolicyError):
+        parse_waivers([{**GOOD, "date": "2026-12-02"}], today=TODAY)
+
+
+def test_waiver_date_judged_against_today_by_default():
+    tomorrow = dt.date.today() + dt.timedelta(days=1)
+    with pytest.raises(PolicyError) as info:
+        parse_waivers([{**GOOD, "date": tomorrow.isoformat()}], file="d.toml")
+    assert f"after the check's date {dt.date.today().isoformat()}" in str(info.value)
+    assert parse_waivers([{**GOOD, "date": dt.date.today().isoformat()}])[0].date == dt.date.today()
+
+
+def test_expires_before_date_is_refused():
+    with pytest.raises(PolicyError) as info:
+        parse_waivers([{**GOOD, "date": "2026-06-01", "expires": "2026-05-31"}], file="d.toml", today=TODAY)
+    assert str(info.value) == ("d.toml, key 'waiver[0].expires': expires 2026-05-31 is before the approval date "
+                               "2026-06-01")
+    # the same day is a one-day waiver
+    (w,) = parse_waivers([{**GOOD, "date": "2026-06-01", "expires": "2026-06-01"}], today=TODAY)
+    assert w.expires == w.date
+
+
+def test_a_waiver_may_cover_the_lifecycle_finding():
+    (w,) = parse_waivers([{**GOOD, "parameter": "lifecycle", "reason": "last-time buy of 5 000 pieces"}], today=TODAY)
+    assert w.covers("d1", "lifecycle")
