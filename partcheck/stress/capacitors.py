@@ -372,6 +372,22 @@ def ripple_rating(
 DEFAULT_CAP_RTH_K_PER_W = 125.0
 
 
+def _check_hot_spot_inputs(i_rms: float, esr: float, ripple_rise_k: float | None, i_rated: float | None,
+                           rth_k_per_w: float | None, freq_multiplier: float) -> None:
+    if not (math.isfinite(freq_multiplier) and freq_multiplier > 0.0):
+        raise ValueError(f"freq_multiplier must be a finite number above zero, got {freq_multiplier!r}")
+    if not (math.isfinite(i_rms) and i_rms >= 0.0):
+        raise ValueError(f"i_rms must be a finite RMS current >= 0, got {i_rms!r}")
+    if not (math.isfinite(esr) and esr >= 0.0):
+        raise ValueError(f"esr must be a finite resistance >= 0, got {esr!r}")
+    if ripple_rise_k is not None and not (math.isfinite(ripple_rise_k) and ripple_rise_k >= 0.0):
+        raise ValueError(f"ripple_rise_k must be a finite rise >= 0 K, got {ripple_rise_k!r}")
+    if i_rated is not None and not (math.isfinite(i_rated) and i_rated >= 0.0):
+        raise ValueError(f"i_rated must be a finite RMS current >= 0, got {i_rated!r}")
+    if rth_k_per_w is not None and not (math.isfinite(rth_k_per_w) and rth_k_per_w >= 0.0):
+        raise ValueError(f"rth_k_per_w must be a finite thermal resistance >= 0, got {rth_k_per_w!r}")
+
+
 def hot_spot_temperature(
     t_ambient_c: float,
     i_rms: float,
@@ -380,45 +396,81 @@ def hot_spot_temperature(
     ripple_rise_k: float | None = None,
     i_rated: float | None = None,
     rth_k_per_w: float | None = None,
+    freq_multiplier: float = 1.0,
 ) -> float:
     """Core (hot-spot) temperature of an electrolytic or polymer capacitor carrying ripple.
 
     Thermal model, in order of preference:
 
-    1. rated core rise known: ΔT = ΔT0·(I/I0)², ΔT0 the catalog's core rise at rated ripple I0;
-    2. otherwise: ΔT = I²·ESR·Rth with ``rth_k_per_w`` or :data:`DEFAULT_CAP_RTH_K_PER_W`.
+    1. rated core rise known: ΔT = ΔT0·(I/(I0·Kf))², ΔT0 the catalog's core rise at the rated
+       ripple I0, quoted at the rating frequency, and Kf the maker's frequency multiplier at the
+       frequency the part runs at.  I0·Kf is the current that gives the same core rise ΔT0 at that
+       frequency (ESR falls with frequency, so more current gives the same I²·ESR), so the rise
+       scales with the square of the current relative to the rating *at the same frequency*.  The
+       temperature multiplier does not enter: it expresses the larger current allowed at a lower
+       ambient because a larger rise is then allowed, not a smaller rise per ampere;
+    2. otherwise: ΔT = I²·ESR·Rth with ``rth_k_per_w`` or :data:`DEFAULT_CAP_RTH_K_PER_W` and
+       ``esr`` as given.  ``freq_multiplier`` is not used here: the catalog ESR is taken at the
+       rating frequency, and ESR falls with frequency, so above it this rise is conservative.
 
     Parameters
     ----------
     t_ambient_c: ambient temperature around the part. [°C]
-    i_rms: ripple current the part carries. [A RMS]
-    esr: ESR at the ripple frequency and temperature. [Ω]
+    i_rms: ripple current the part carries, at the switching frequency. [A RMS]
+    esr: ESR for the fallback model (the catalog ESR, at the rating frequency). [Ω]
     ripple_rise_k: rated core temperature rise at ``i_rated``. [K]
-    i_rated: ripple current at which ``ripple_rise_k`` is specified. [A RMS]
+    i_rated: ripple current at which ``ripple_rise_k`` is specified, at the rating frequency. [A RMS]
     rth_k_per_w: core-to-ambient thermal resistance. [K/W]
+    freq_multiplier: the maker's ripple-current frequency multiplier Kf at the frequency ``i_rms``
+        flows at, relative to the frequency ``i_rated`` is quoted at
+        (:attr:`RippleRating.freq_multiplier`); 1 at the rating frequency. [-]
 
     Returns
     -------
     Hot-spot temperature. [°C]
 
+    Raises
+    ------
+    ValueError: ``freq_multiplier`` not a finite number above zero; a negative or non-finite
+        current, ESR, rise or thermal resistance.
+
     References
     ----------
     P = I²·ESR, ΔT = P·Rth and ΔT = ΔT0·(I/I0)²: derating-standards.md §5 (standard physics and
-    ``common practice``, from memory).
+    ``common practice``, from memory).  Frequency multiplier as the current of equal core rise
+    because ESR is lower at higher frequency, and the temperature multiplier as the larger rise
+    allowed at a lower ambient: BHC Components, "Aluminium electrolytic capacitors — electrical
+    characteristics", section Ripple current (bhc.co.uk/electric03.htm, read); the same method in
+    Cornell Dubilier, *Aluminum Electrolytic Capacitor Application Guide*, sections Ripple
+    Current and Cooling and Thermal Resistance (from memory).
     """
+    _check_hot_spot_inputs(i_rms, esr, ripple_rise_k, i_rated, rth_k_per_w, freq_multiplier)
     if ripple_rise_k is not None and i_rated:
-        return float(t_ambient_c + ripple_rise_k * (i_rms / i_rated) ** 2)
+        return float(t_ambient_c + ripple_rise_k * (i_rms / (i_rated * freq_multiplier)) ** 2)
     rth = DEFAULT_CAP_RTH_K_PER_W if rth_k_per_w is None else rth_k_per_w
     return float(t_ambient_c + i_rms * i_rms * esr * rth)
 
 
-def hot_spot_model(ripple_rise_k: float | None, i_rated: float | None, rth_k_per_w: float | None) -> str:
-    """One-line statement of the thermal model :func:`hot_spot_temperature` uses for these inputs."""
+def hot_spot_model(ripple_rise_k: float | None, i_rated: float | None, rth_k_per_w: float | None, *,
+                   freq_multiplier: float = 1.0) -> str:
+    """One-line statement of the thermal model :func:`hot_spot_temperature` uses for these inputs.
+
+    ``freq_multiplier`` (Kf [-]) is shown in the rated-rise model; the ESR model states that the
+    catalog ESR (at the rating frequency) is used, which is conservative above that frequency.
+
+    References
+    ----------
+    As :func:`hot_spot_temperature`.
+    """
+    if not (math.isfinite(freq_multiplier) and freq_multiplier > 0.0):
+        raise ValueError(f"freq_multiplier must be a finite number above zero, got {freq_multiplier!r}")
     if ripple_rise_k is not None and i_rated:
-        return f"ΔT = ΔT0·(I/I0)² with ΔT0 = {ripple_rise_k:g} K at I0 = {i_rated:g} A (catalog)"
+        return (f"ΔT = ΔT0·(I/(I0·Kf))² with ΔT0 = {ripple_rise_k:g} K at I0 = {i_rated:g} A (catalog) and "
+                f"frequency multiplier Kf = {freq_multiplier:.3g}")
+    esr_text = "catalog ESR at the rating frequency (conservative above it)"
     if rth_k_per_w is None:
-        return f"ΔT = I²·ESR·Rth with the default Rth = {DEFAULT_CAP_RTH_K_PER_W:g} K/W (assumed)"
-    return f"ΔT = I²·ESR·Rth with Rth = {rth_k_per_w:g} K/W"
+        return f"ΔT = I²·ESR·Rth with the {esr_text} and the default Rth = {DEFAULT_CAP_RTH_K_PER_W:g} K/W (assumed)"
+    return f"ΔT = I²·ESR·Rth with the {esr_text} and Rth = {rth_k_per_w:g} K/W"
 
 
 def electrolytic_life(l0_h: float, t0_c: float, t_hot_c: float) -> float:
@@ -442,3 +494,81 @@ def electrolytic_life(l0_h: float, t0_c: float, t_hot_c: float) -> float:
     memory); derating-standards.md §5.
     """
     return float(l0_h * 2.0 ** ((t0_c - t_hot_c) / 10.0))
+
+
+def miner_life(lives_h: Sequence[float], fractions: Sequence[float]) -> float:
+    """Life over a mission profile by the linear damage rule, L = 1 / Σ(f_i / L_i).
+
+    Each mission point i spends the fraction f_i of the operating time at a condition where the
+    part would last L_i; every hour there uses up 1/L_i of the life, and the part wears out when
+    the used-up fractions add to 1.
+
+    Parameters
+    ----------
+    lives_h: life at each mission point (e.g. :func:`electrolytic_life` at that point's hot
+        spot); ``math.inf`` for a point that causes no wear. [h]
+    fractions: fraction of the operating time at each point, each in [0, 1], summing to 1
+        within 1e-6. [-]
+
+    Returns
+    -------
+    Life over the mission. [h]  A point with zero life and a time fraction above zero gives 0; a
+    point with infinite life (or zero time) contributes nothing; all points infinite give
+    ``math.inf``.
+
+    Raises
+    ------
+    ValueError: the sequences differ in length or are empty; a fraction outside [0, 1] or not a
+        number; the fractions do not sum to 1; a negative or NaN life.
+
+    References
+    ----------
+    M. A. Miner, "Cumulative damage in fatigue", J. Appl. Mech. 12 (1945) A159–A164 (the
+    Palmgren–Miner linear damage rule, from memory); its use for capacitor wear-out over a
+    mission profile is ``common practice`` (from memory).
+    """
+    lives = [float(x) for x in lives_h]
+    fracs = [float(x) for x in fractions]
+    if len(lives) != len(fracs):
+        raise ValueError(f"{len(lives)} lives but {len(fracs)} time fractions; expected one fraction per life")
+    if not lives:
+        raise ValueError("no mission points; expected at least one life and time fraction")
+    for i, (life, f) in enumerate(zip(lives, fracs)):
+        if not (f >= 0.0 and f <= 1.0):  # also refuses NaN
+            raise ValueError(f"time fraction {i} is {f!r}; expected a fraction in [0, 1]")
+        if not life >= 0.0:  # also refuses NaN
+            raise ValueError(f"life {i} is {life!r}; expected a life >= 0 h (math.inf for no wear)")
+    total = math.fsum(fracs)
+    if abs(total - 1.0) > 1e-6:
+        raise ValueError(f"the time fractions sum to {total:.9g}; expected 1")
+    damage = 0.0
+    for life, f in zip(lives, fracs):
+        if f == 0.0 or math.isinf(life):
+            continue
+        if life == 0.0:
+            return 0.0
+        damage += f / life
+    return math.inf if damage == 0.0 else float(1.0 / damage)
+
+
+def polymer_life(l0_h: float, t0_c: float, t_hot_c: float) -> float:
+    """Expected life of a conductive-polymer aluminium capacitor by the 20-degree rule,
+    L = L0·10^((T0 − T)/20).
+
+    Parameters
+    ----------
+    l0_h: rated life at ``t0_c``. [h]
+    t0_c: temperature the life is rated at. [°C]
+    t_hot_c: hot-spot temperature in use. [°C]
+
+    Returns
+    -------
+    Expected life. [h]
+
+    References
+    ----------
+    Polymer aluminium capacitor makers' life formula (ten times the life per 20 K cooler),
+    ``common practice``, from memory; the solid polymer has no electrolyte to dry out, so its
+    life grows more slowly with cooling than a wet electrolytic's 10-degree rule.
+    """
+    return float(l0_h * 10.0 ** ((t0_c - t_hot_c) / 20.0))

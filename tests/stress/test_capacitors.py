@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import itertools
+import math
 import os
 import re
 import shutil
@@ -21,6 +22,7 @@ from partcheck.stress.capacitors import (
     electrolytic_life,
     hot_spot_model,
     hot_spot_temperature,
+    miner_life,
     ripple_rating,
     split_bank_current,
 )
@@ -279,3 +281,131 @@ def test_life_with_ripple_self_heating():
     # → 3.2 K → 25 634 h (32 000 h without ripple).
     t_hot = hot_spot_temperature(65.0, 0.8, 0.05, ripple_rise_k=5.0, i_rated=1.0)
     assert electrolytic_life(2000.0, 105.0, t_hot) == pytest.approx(25634.0, abs=1.0)
+
+
+# ---------------------------------------------------------------- hot spot at the rating's frequency
+
+#: The demo's output electrolytic C10 (sample_boms/battery_monitor_48v, part CEG-101-25-6.3x11 in
+#: db/parts.csv): ripple 0.12 A rated at 120 Hz, ripple_freq curve 1.5 from 100 kHz to 500 kHz (so
+#: Kf = 1.5 at the 200 kHz switching frequency), core rise 5 K at rated ripple, 2000 h at 105 °C.
+C10 = {"i_rated": 0.12, "kf_200k": 1.5, "rise_k": 5.0, "life_h": 2000.0, "life_t_c": 105.0, "esr": 0.5}
+
+
+def test_demo_electrolytic_hot_spot_at_the_current_limit_corner():
+    """Hand-worked: C10 at 60 °C ambient carrying 0.48 A RMS at the current-limit corner.
+
+    Old model, rise against the 120 Hz rating: 60 + 5·(0.48/0.12)² = 60 + 5·16 = 140 °C, far above
+    the 105 °C category (10-degree rule: 2000·2^(−3.5) = 176.8 h).  Consistent model, rise against
+    the rating at the same frequency, I0·Kf = 0.12·1.5 = 0.18 A: 60 + 5·(0.48/0.18)² = 60 + 5·64/9
+    = 60 + 35.56 = 95.56 °C, and life 2000·2^((105 − 95.56)/10) = 2000·2^(17/18) = 3848.9 h.
+    """
+    old = hot_spot_temperature(60.0, 0.48, C10["esr"], ripple_rise_k=C10["rise_k"], i_rated=C10["i_rated"])
+    assert old == pytest.approx(140.0, rel=1e-12)  # Kf defaults to 1: the rating frequency
+    t_hot = hot_spot_temperature(60.0, 0.48, C10["esr"], ripple_rise_k=C10["rise_k"], i_rated=C10["i_rated"],
+                                 freq_multiplier=C10["kf_200k"])
+    # Source: the maker's method: the frequency multiplier is the current of equal core rise, since
+    # ESR is lower at higher frequency; the temperature multiplier is the larger rise allowed at a
+    # lower ambient and does not enter the rise.  BHC Components, "Aluminium electrolytic
+    # capacitors — electrical characteristics", Ripple current (read); Cornell Dubilier, Aluminum
+    # Electrolytic Capacitor Application Guide, Ripple Current (from memory).
+    assert t_hot == pytest.approx(60.0 + 5.0 * 64.0 / 9.0, rel=1e-12)
+    assert t_hot == pytest.approx(95.56, abs=0.005)
+    # 10-degree rule: Wang & Blaabjerg 2014, IEEE TIA 50(5) (equation from memory).
+    assert electrolytic_life(C10["life_h"], C10["life_t_c"], t_hot) == pytest.approx(2000.0 * 2 ** (17 / 18), rel=1e-12)
+    assert electrolytic_life(C10["life_h"], C10["life_t_c"], t_hot) == pytest.approx(3848.9, abs=0.05)
+    assert electrolytic_life(C10["life_h"], C10["life_t_c"], old) == pytest.approx(176.78, abs=0.005)
+
+
+@pytest.mark.parametrize("kf", [1.0, 1.5, 0.7, 2.8])
+def test_rated_rise_at_the_rating_at_that_frequency_is_exactly_the_rated_rise(kf):
+    # Identity (definition of the multiplier, BHC Components Ripple current, read): at I = I0·Kf
+    # the core rise is the rated ΔT0, at any frequency.
+    t = hot_spot_temperature(40.0, 0.12 * kf, 0.5, ripple_rise_k=5.0, i_rated=0.12, freq_multiplier=kf)
+    assert t - 40.0 == pytest.approx(5.0, rel=1e-12)
+
+
+def test_frequency_multiplier_does_not_change_the_esr_fallback():
+    # The I²·ESR·Rth fallback keeps the catalog ESR (at the rating frequency; conservative above it).
+    base = hot_spot_temperature(60.0, 1.0, 0.05, rth_k_per_w=40.0)
+    assert hot_spot_temperature(60.0, 1.0, 0.05, rth_k_per_w=40.0, freq_multiplier=1.5) == base == pytest.approx(62.0)
+    assert "rating frequency" in hot_spot_model(None, None, 40.0, freq_multiplier=1.5)
+
+
+def test_hot_spot_model_states_the_multiplier():
+    text = hot_spot_model(5.0, 0.12, None, freq_multiplier=1.5)
+    assert "I0·Kf" in text and "Kf = 1.5" in text and "I0 = 0.12 A" in text
+    assert "Kf = 1" in hot_spot_model(5.0, 0.12, None)
+
+
+@pytest.mark.parametrize("kwargs", [
+    {"freq_multiplier": 0.0}, {"freq_multiplier": -1.5}, {"freq_multiplier": float("nan")},
+    {"freq_multiplier": float("inf")}, {"ripple_rise_k": -5.0, "i_rated": 0.12}, {"i_rated": -0.1, "ripple_rise_k": 5.0},
+    {"rth_k_per_w": -1.0},
+])
+def test_hot_spot_refuses_bad_inputs(kwargs):
+    with pytest.raises(ValueError):
+        hot_spot_temperature(60.0, 0.48, 0.5, **kwargs)
+
+
+def test_hot_spot_refuses_negative_current_or_esr():
+    with pytest.raises(ValueError, match="i_rms"):
+        hot_spot_temperature(60.0, -0.1, 0.5)
+    with pytest.raises(ValueError, match="esr"):
+        hot_spot_temperature(60.0, 0.1, -0.5)
+    with pytest.raises(ValueError, match="freq_multiplier"):
+        hot_spot_model(5.0, 0.12, None, freq_multiplier=0.0)
+
+
+# ---------------------------------------------------------------- Miner's rule over a mission
+
+
+def test_miner_two_point_hand_example():
+    """70 % of the time at 65 °C and 30 % at 85 °C for a 2000 h / 105 °C part.
+
+    10-degree rule: 32 000 h at 65 °C, 8 000 h at 85 °C.  Damage per hour
+    0.7/32 000 + 0.3/8 000 = 2.1875e-5 + 3.75e-5 = 5.9375e-5, so L = 16 842.1 h.
+    """
+    lives = [electrolytic_life(2000.0, 105.0, 65.0), electrolytic_life(2000.0, 105.0, 85.0)]
+    # Miner, J. Appl. Mech. 12 (1945), linear damage rule L = 1/Σ(f_i/L_i) (from memory).
+    assert miner_life(lives, [0.7, 0.3]) == pytest.approx(1.0 / 5.9375e-5, rel=1e-12)
+    assert miner_life(lives, [0.7, 0.3]) == pytest.approx(16842.1, abs=0.05)
+
+
+def test_miner_three_point_hand_example():
+    # 0.5/16 000 + 0.3/8 000 + 0.2/4 000 = 3.125e-5 + 3.75e-5 + 5e-5 = 1.1875e-4 → 8 421.05 h
+    # (Miner 1945, linear damage rule, from memory; hand-worked).
+    assert miner_life([16000.0, 8000.0, 4000.0], [0.5, 0.3, 0.2]) == pytest.approx(1.0 / 1.1875e-4, rel=1e-12)
+    assert miner_life((16000.0, 8000.0, 4000.0), (0.5, 0.3, 0.2)) == pytest.approx(8421.05, abs=0.005)
+
+
+@pytest.mark.parametrize("n", [1, 2, 5])
+def test_miner_identity_equal_points_give_the_same_life(n):
+    # Identity: when every point has the same life, the mission life is that life.
+    assert miner_life([12345.0] * n, [1.0 / n] * n) == pytest.approx(12345.0, rel=1e-12)
+
+
+def test_miner_ten_percent_at_a_tenth_of_the_life():
+    # 90 % at L and 10 % at L/10: damage 0.9/L + 0.1·10/L = 1.9/L → L/1.9 = 0.5263·L (not quite
+    # half: the short, harsh point uses up 1/1.9 = 53 % of the damage). Hand-worked, Miner 1945.
+    assert miner_life([10000.0, 1000.0], [0.9, 0.1]) == pytest.approx(10000.0 / 1.9, rel=1e-12)
+
+
+def test_miner_zero_and_infinite_lives():
+    assert miner_life([0.0, 1000.0], [0.5, 0.5]) == 0.0  # a point that wears out at once
+    assert miner_life([math.inf, 1000.0], [0.5, 0.5]) == pytest.approx(2000.0, rel=1e-12)  # no wear there
+    assert miner_life([math.inf, math.inf], [0.3, 0.7]) == math.inf
+    assert miner_life([0.0, 1000.0], [0.0, 1.0]) == pytest.approx(1000.0)  # no time at the zero-life point
+
+
+@pytest.mark.parametrize("lives,fractions,words", [
+    ([1000.0, 2000.0], [1.0], "one fraction per life"),
+    ([], [], "at least one"),
+    ([1000.0, 2000.0], [0.5, 0.4], "sum to 0.9"),
+    ([1000.0, 2000.0], [1.2, -0.2], "fraction in"),
+    ([1000.0], [float("nan")], "fraction in"),
+    ([-1.0], [1.0], "life >= 0"),
+    ([float("nan")], [1.0], "life >= 0"),
+])
+def test_miner_refuses_bad_inputs(lives, fractions, words):
+    with pytest.raises(ValueError, match=words):
+        miner_life(lives, fractions)
