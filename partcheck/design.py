@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import datetime as _dt
 import difflib
+import math
 import re
 import sys
 import tomllib
@@ -27,6 +28,19 @@ from .units import as_date, format_quantity, parse_quantity
 
 #: Controller maximum duty when the design does not state one (common practice).
 DEFAULT_MAX_DUTY = 0.9
+
+#: Current-sense-to-gate-off delay assumed when ``converter.current_limit`` is given without
+#: ``current_limit_delay``: a typical controller's figure.  Controller data sheets commonly state
+#: 100-250 ns for the current-limit propagation delay, including the leading-edge blanking
+#: comparator delay and the driver turn-off (``common practice``, from memory).  A default of 0
+#: would flatter the current-limit corners: the peak overshoots the limit by Vin·t/(Lm + Llk).
+DEFAULT_CURRENT_LIMIT_DELAY_S = 150e-9
+
+#: The mission profile assumed when the design has no ``[[mission]]`` tables; the report states it.
+DEFAULT_MISSION_TEXT = (
+    "no [[mission]] profile given: life assumed at 100 % of the time at full load, nominal input "
+    "(vin_nom) and ambient_max (conservative: every operating hour at the hottest rated condition)"
+)
 
 #: Roles a reference may be mapped to in ``[roles]`` (optionally ``"role:<output name>"``).
 KNOWN_ROLES: tuple[str, ...] = (
@@ -50,6 +64,9 @@ class Converter:
     current_limit_delay: float  # comparator + driver delay that lets the peak overshoot the limit [s]
     max_duty: float  # controller maximum duty [-]
     valley: int  # boundary mode: the valley the controller turns on at (1 = first) [-]
+    # False when current_limit_delay is the default (DEFAULT_CURRENT_LIMIT_DELAY_S with a current
+    # limit, 0 without one), so the report can state the assumption.
+    current_limit_delay_given: bool = False
 
 
 @dataclass(frozen=True)
@@ -119,6 +136,16 @@ class ExtraStress:
 
 
 @dataclass(frozen=True)
+class MissionPoint:
+    """One ``[[mission]]`` point: a share of the operating time at one load, ambient and input."""
+
+    time: float  # fraction of the operating time, in (0, 1]; the points sum to 1 [-]
+    load: float  # fraction of full load (every output's iout scaled), in (0, 1] [-]
+    ambient_c: float  # ambient temperature [°C]
+    vin: float | None  # DC input; None = the design's vin_nom [V]
+
+
+@dataclass(frozen=True)
 class Design:
     """A validated design: every quantity an SI float (°C for temperatures)."""
 
@@ -140,6 +167,7 @@ class Design:
     requirements: dict[str, float] = field(default_factory=dict)
     waivers: tuple[dict[str, Any], ...] = ()
     feedback: dict[str, float | str] = field(default_factory=dict)
+    mission: tuple[MissionPoint, ...] = ()  # empty when the file has no [[mission]]
     raw: dict[str, Any] = field(default_factory=dict)
 
     @property
@@ -263,7 +291,8 @@ def _unknown(key: str, allowed: tuple[str, ...]) -> str:
 
 
 _TOP = ("name", "bom", "policy", "converter", "input", "output", "transformer", "clamp", "environment",
-        "switch_node", "roles", "pins", "extra_stress", "tolerances", "requirements", "waiver", "feedback")
+        "switch_node", "roles", "pins", "extra_stress", "tolerances", "requirements", "waiver", "feedback",
+        "mission")
 
 
 def design_from_dict(data: dict[str, Any], *, file: str | Path | None = None) -> Design:
@@ -308,6 +337,7 @@ def design_from_dict(data: dict[str, Any], *, file: str | Path | None = None) ->
         requirements=_requirements(data.get("requirements", {}), path),
         waivers=_waivers(data.get("waiver", []), path),
         feedback=_feedback(data.get("feedback", {}), path),
+        mission=_mission(data["mission"], path, inp, environment) if "mission" in data else (),
         raw=data,
     )
 
@@ -326,14 +356,17 @@ def _converter(top: _Reader, path: Path | None) -> Converter:
     if not 0.0 < eta <= 1.0:
         raise r.error("efficiency", f"{eta!r} is outside (0, 1]; write the efficiency as a fraction such as 0.85")
     ilim = r.quantity("current_limit", "A", positive=True)
-    t_pd = r.quantity("current_limit_delay", "s", default=0.0, nonnegative=True)
+    t_pd_given = r.has("current_limit_delay")
+    t_pd = r.quantity("current_limit_delay", "s", nonnegative=True)
+    if t_pd is None:
+        t_pd = DEFAULT_CURRENT_LIMIT_DELAY_S if ilim is not None else 0.0
     max_duty = r.quantity("max_duty", None, default=DEFAULT_MAX_DUTY)
     if not 0.0 < max_duty < 1.0:
         raise r.error("max_duty", f"{max_duty!r} is outside (0, 1); write the maximum duty as a fraction such as 0.75")
     valley = r.data.get("valley", 1)
     if isinstance(valley, bool) or not isinstance(valley, int) or valley < 1:
         raise r.error("valley", f"{_show(valley)} is not a valley number; expected a whole number 1, 2, 3...")
-    return Converter(topology, control, switching, fsw, eta, ilim, t_pd, max_duty, valley)
+    return Converter(topology, control, switching, fsw, eta, ilim, t_pd, max_duty, valley, t_pd_given)
 
 
 def _input(top: _Reader, path: Path | None) -> InputRange:
@@ -572,6 +605,56 @@ def _waivers(data: Any, path: Path | None) -> tuple[dict[str, Any], ...]:
             raise r.error("expires", f"{w['expires']} is before the approval date {w['date']}")
         result.append(w)
     return tuple(result)
+
+
+_MISSION_KEYS = ("time", "load", "ambient", "vin")
+
+
+def _mission(data: Any, path: Path | None, inp: InputRange, env: Environment) -> tuple[MissionPoint, ...]:
+    if isinstance(data, dict):
+        data = [data]
+    if not isinstance(data, list) or not data:
+        raise DesignError(f"expected one or more [[mission]] tables, got {_show(data)}", file=path, key="mission")
+    points = []
+    for i, item in enumerate(data):
+        r = _Reader(item, f"mission[{i}]", path, _MISSION_KEYS)
+        time = r.quantity("time", "%", required=True)
+        if not 0.0 < time <= 1.0:
+            raise r.error("time", f"{_show(r.data['time'])} is outside (0, 1]; expected the fraction of the "
+                                  "operating time at this point, such as 0.7 or \"70 %\"")
+        load = r.quantity("load", "%", required=True)
+        if not 0.0 < load <= 1.0:
+            raise r.error("load", f"{_show(r.data['load'])} is outside (0, 1]; expected the fraction of full "
+                                  "load, such as 0.5 or \"50 %\"")
+        ambient = r.quantity("ambient", "degC", required=True)
+        t_low = env.ambient_min if env.ambient_min is not None else -70.0
+        if not t_low <= ambient <= env.ambient_max:
+            low = "environment.ambient_min" if env.ambient_min is not None else "-70 °C"
+            raise r.error("ambient", f"{format_quantity(ambient, 'degC')} is outside {low}..environment.ambient_max "
+                                     f"({format_quantity(t_low, 'degC')}..{format_quantity(env.ambient_max, 'degC')}); "
+                                     "the stress checks run at ambient_max, so no mission point may be hotter")
+        vin = r.quantity("vin", "V")
+        if vin is not None and not inp.vin_min <= vin <= inp.vin_max:
+            raise r.error("vin", f"{format_quantity(vin, 'V')} is outside vin_min..vin_max "
+                                 f"({format_quantity(inp.vin_min, 'V')}..{format_quantity(inp.vin_max, 'V')})")
+        points.append(MissionPoint(time, load, ambient, vin))
+    total = math.fsum(p.time for p in points)
+    if abs(total - 1.0) > 1e-6:
+        raise DesignError(f"the [[mission]] times sum to {total:.9g}; expected 1 (100 % of the operating time)",
+                          file=path, key="mission")
+    return tuple(points)
+
+
+def mission_points(design: Design) -> tuple[MissionPoint, ...]:
+    """The design's mission profile, or the stated default of :data:`DEFAULT_MISSION_TEXT`.
+
+    The default is one point: 100 % of the time at full load, nominal input (``vin=None``, that
+    is ``input.vin_nom``) and ``environment.ambient_max``.  A point's ``vin`` of ``None`` always
+    means ``design.input.vin_nom``.
+    """
+    if design.mission:
+        return design.mission
+    return (MissionPoint(time=1.0, load=1.0, ambient_c=design.environment.ambient_max, vin=None),)
 
 
 def _feedback(data: Any, path: Path | None) -> dict[str, float | str]:

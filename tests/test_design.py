@@ -201,3 +201,130 @@ def test_demo_designs_load_and_evaluate(path):
     design = load_design(path)
     result = evaluate(design)
     assert result.corners and all(c.mode in ("CCM", "DCM", "BCM") for c in result.corners)
+
+
+# ---------------------------------------------------------------- current-limit delay default
+
+
+def test_current_limit_delay_defaults_to_a_typical_controller_with_a_current_limit():
+    # DEFAULT_CURRENT_LIMIT_DELAY_S: controller data sheets commonly state 100-250 ns from current
+    # sense to gate off (common practice, from memory); 150 ns is assumed when none is given.
+    from partcheck.design import DEFAULT_CURRENT_LIMIT_DELAY_S
+
+    assert DEFAULT_CURRENT_LIMIT_DELAY_S == 150e-9
+    conv = design_from_dict(make()).converter
+    assert conv.current_limit_delay == 150e-9 and conv.current_limit_delay_given is False
+    conv = design_from_dict(make(converter={"current_limit_delay": "80 ns"})).converter
+    assert conv.current_limit_delay == pytest.approx(80e-9) and conv.current_limit_delay_given is True
+    conv = design_from_dict(make(converter={"current_limit_delay": 0})).converter
+    assert conv.current_limit_delay == 0.0 and conv.current_limit_delay_given is True  # an ideal limit, stated
+    conv = design_from_dict(make(converter={"current_limit": None})).converter
+    assert conv.current_limit_delay == 0.0 and conv.current_limit_delay_given is False  # no limit: no delay
+
+
+def test_default_delay_overshoots_the_limit_at_the_limit_corner():
+    # Overshoot Vin·t/(Lm + Llk) (flyback reference note sec. 5): 32 V · 150 ns / 40.8 µH = 0.1176 A
+    # over the 3 A limit at vin_max-ilim.  Before the default was 150 ns this corner sat at exactly 3 A.
+    c = evaluate(design_from_dict(make())).corner("vin_max-ilim")
+    assert c.roles["transformer"]["i_peak"] == pytest.approx(3.0 + 32.0 * 150e-9 / 40.8e-6, rel=1e-9)
+
+
+# ---------------------------------------------------------------- mission profile
+
+
+MISSION = [{"time": 0.7, "load": 0.5, "ambient": "40 degC", "vin": "24 V"},
+           {"time": "20 %", "load": "100%", "ambient": "70 degC"},
+           {"time": 0.1, "load": 0.25, "ambient": 25}]
+
+
+def test_mission_loads_as_points():
+    from partcheck.design import MissionPoint, mission_points
+
+    d = design_from_dict(make(mission=MISSION))
+    assert d.mission == (MissionPoint(0.7, 0.5, 40.0, 24.0), MissionPoint(pytest.approx(0.2), 1.0, 70.0, None),
+                         MissionPoint(0.1, 0.25, 25.0, None))
+    assert mission_points(d) == d.mission
+    single = design_from_dict(make(mission={"time": 1, "load": 1, "ambient": "55 degC"}))  # a lone [mission]
+    assert single.mission == (MissionPoint(1.0, 1.0, 55.0, None),)
+
+
+def test_mission_default_is_full_load_nominal_input_at_ambient_max():
+    from partcheck.design import DEFAULT_MISSION_TEXT, MissionPoint, mission_points
+
+    d = design_from_dict(make())
+    assert d.mission == ()
+    assert mission_points(d) == (MissionPoint(time=1.0, load=1.0, ambient_c=70.0, vin=None),)
+    assert "100 %" in DEFAULT_MISSION_TEXT and "full load" in DEFAULT_MISSION_TEXT
+    assert "ambient_max" in DEFAULT_MISSION_TEXT and "vin_nom" in DEFAULT_MISSION_TEXT
+
+
+def test_mission_from_a_toml_file(tmp_path):
+    path = tmp_path / "design.toml"
+    path.write_text(
+        'name = "x"\n[converter]\nfsw = "250 kHz"\nefficiency = 0.85\n'
+        '[input]\nvin_min = 18\nvin_max = "32 V"\n[[output]]\nvout = "5 V"\niout = "2 A"\n'
+        'turns_ratio = 4\n[transformer]\nlm = "40 uH"\n[environment]\nambient_max = "70 degC"\n'
+        '[[mission]]\ntime = "70 %"\nload = 0.5\nambient = "40 degC"\nvin = "24 V"\n'
+        '[[mission]]\ntime = 0.3\nload = 1\nambient = "70 degC"\n', encoding="utf-8")
+    d = load_design(path)
+    assert [(p.time, p.load, p.ambient_c, p.vin) for p in d.mission] == [(0.7, 0.5, 40.0, 24.0), (0.3, 1.0, 70.0, None)]
+
+
+def _bad(i, **changes):
+    points = copy.deepcopy(MISSION)
+    for k, v in changes.items():
+        if v is None:
+            points[i].pop(k)
+        else:
+            points[i][k] = v
+    return points
+
+
+@pytest.mark.parametrize("points,key,words", [
+    (_bad(1, tmie=0.2), "mission[1].tmie", "did you mean 'time'"),
+    (_bad(0, time=0), "mission[0].time", "outside (0, 1]"),
+    (_bad(0, time=1.5), "mission[0].time", "outside (0, 1]"),
+    (_bad(2, load=0), "mission[2].load", "outside (0, 1]"),
+    (_bad(2, load="120 %"), "mission[2].load", "outside (0, 1]"),
+    (_bad(2, load=None), "mission[2].load", "missing"),
+    (_bad(0, ambient="40 V"), "mission[0].ambient", "temperature"),
+    (_bad(0, ambient="85 degC"), "mission[0].ambient", "ambient_max"),
+    (_bad(0, vin="40 V"), "mission[0].vin", "outside vin_min..vin_max"),
+    (_bad(0, vin="12 V"), "mission[0].vin", "outside vin_min..vin_max"),
+    (_bad(0, time=0.6), "mission", "sum to 0.9"),
+    ([], "mission", "one or more [[mission]]"),
+    ("often", "mission", "one or more [[mission]]"),
+])
+def test_mission_is_validated(points, key, words):
+    with pytest.raises(DesignError) as info:
+        design_from_dict(make(mission=points), file="d.toml")
+    assert info.value.file == "d.toml" and info.value.key == key and words in info.value.message
+
+
+def test_mission_ambient_below_ambient_min_is_refused():
+    with pytest.raises(DesignError) as info:
+        design_from_dict(make(environment={"ambient_min": "0 degC"}, mission=_bad(2, ambient="-10 degC")))
+    assert info.value.key == "mission[2].ambient" and "ambient_min" in info.value.message
+
+
+def test_mission_times_sum_within_tolerance():
+    # 1/3 three times sums to 1 within rounding; 1e-6 is the stated tolerance.
+    third = [{"time": 1 / 3, "load": 1, "ambient": 60}] * 3
+    assert len(design_from_dict(make(mission=third)).mission) == 3
+    off = [{"time": 0.5, "load": 1, "ambient": 60}, {"time": 0.5 + 2e-6, "load": 1, "ambient": 60}]
+    with pytest.raises(DesignError, match=r"sum to 1\.000002"):
+        design_from_dict(make(mission=off))
+
+
+# ---------------------------------------------------------------- the key reference stays complete
+
+
+def test_every_key_is_documented():
+    from partcheck.design import _MISSION_KEYS, _TOP
+
+    doc = (Path(__file__).resolve().parents[1] / "docs" / "design-file.md").read_text(encoding="utf-8")
+    for key in _TOP:
+        assert f"`{key}" in doc or f"[{key}]" in doc or f"[[{key}]]" in doc, key
+    for key in _MISSION_KEYS:
+        assert f"`mission[i].{key}`" in doc, key
+    assert "`converter.current_limit_delay` | s | 150 ns" in doc
