@@ -583,7 +583,7 @@ def policy_validate(
 # ---- check, report and demo -------------------------------------------------------------------
 
 _STATUS_STYLE = {"fail": "bold red", "unmatched": "red", "not_assessed": "magenta", "warn": "yellow",
-                 "waived": "cyan", "pass": "green"}
+                 "waived": "cyan", "info": "dim", "pass": "green"}
 
 
 def _print_findings(result) -> None:
@@ -610,6 +610,8 @@ def _print_findings(result) -> None:
             out.print(Text(f"  order instead of {', '.join(f['refs'])} ({f['part_number']}): {alts}"))
         elif f["status"] in ("not_assessed", "unmatched") and f.get("detail"):
             out.print(Text(f"  {', '.join(f['refs'])}: {f['detail']}"))
+    for warning in result.bom_warnings:
+        out.print(Text(f"warning: {warning}", style="yellow"))
 
 
 def _print_verdict(result) -> None:

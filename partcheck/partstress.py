@@ -24,10 +24,18 @@ from .stress import feedback as fb_model
 from .stress import semiconductors as semi
 from .stress.waveform import PiecewiseLinear
 
-#: Gate drive assumed when the design file gives none (``[feedback]`` has no gate keys):
-#: sink/source current [A] and drive voltage [V].  Common practice for a controller's driver.
-DEFAULT_GATE_CURRENT_A = 1.0
+#: Gate drive assumed when the design file gives none: the driver's peak sink/source current [A]
+#: and drive voltage [V].  A small flyback controller's driver is commonly rated 0.3-1 A (common
+#: practice, from memory); the low end is taken, since a weaker drive means slower edges and more
+#: switching loss.
+DEFAULT_GATE_CURRENT_A = 0.3
 DEFAULT_GATE_VOLTAGE_V = 10.0
+#: With a gate resistor mapped in ``[roles] gate_resistor``, the gate current through the Miller
+#: plateau is limited by it: Ig_on = (Vgs − Vpl)/(Rg + Rdrv), Ig_off = Vpl/(Rg + Rdrv).  Plateau and
+#: driver output resistance when not given (common practice, from memory: standard-level
+#: MOSFETs plateau near 4-5 V; a controller's driver output is a few ohms).
+DEFAULT_MILLER_PLATEAU_V = 4.5
+DEFAULT_DRIVER_RESISTANCE_OHM = 5.0
 #: Optocoupler LED forward drop [V] and shunt-reference cathode voltage [V] when not given.
 DEFAULT_LED_VF_V = 1.2
 DEFAULT_SHUNT_VKA_V = 2.5
@@ -56,6 +64,10 @@ class PartContext:
     assumptions: set[str] = field(default_factory=set)
     bank_splits: dict[str, dict] = field(default_factory=dict)  # role → worst-corner split, for the report
     losses: dict[str, dict[str, float]] = field(default_factory=dict)  # corner → part → W
+    mission: list[tuple[float, Corner]] = field(default_factory=list)  # (fraction of time, corner) for life
+    efficiency_factors: dict[str, float] = field(default_factory=dict)  # corner → efficiency used / design
+    gate_resistance: float | None = None  # the mapped gate resistor's resistance [Ω]
+    switch_part: Any = None  # the switch's catalog record (for the gate resistor)
     notes: list[str] = field(default_factory=list)  # operating remarks for the reviewer
 
     @property
@@ -89,6 +101,11 @@ class _Items:
         if rating == "column":
             column = rating_column(p.category, parameter, self.policy, p)
             rating = getattr(p, column, None) if column else None
+        else:
+            # A model passes its own (corrected) rating, unless the rule names another column.
+            column = rating_column(p.category, parameter, self.policy, p)
+            if column and column != DEFAULT_RATINGS.get((p.category, parameter)):
+                rating = getattr(p, column, None)
         if stress is not None and not math.isfinite(stress):
             stress = None
         self.items.append(StressItem(
@@ -96,7 +113,15 @@ class _Items:
             dielectric=getattr(p, "dielectric", None), parameter=parameter,
             stress=abs(stress) if stress is not None else None, rating=rating, corner=corner,
             temperature=temperature, t_max=getattr(p, "tj_max", None) or getattr(p, "t_max", None), detail=detail,
-            t_knee=getattr(p, "t_knee", None), rating_min=getattr(p, "ika_min", None), required=required))
+            t_knee=getattr(p, "t_knee", None), rating_min=self._rating_min(parameter), required=required))
+
+    def _rating_min(self, parameter: str) -> float | None:
+        """The part's minimum operating value from the column the rule's ``min_rating`` names."""
+        p = self.part
+        rule = self.policy.rule_for(p.category, parameter, getattr(p, "subtype", None),
+                                    getattr(p, "dielectric", None)) if self.policy is not None else None
+        column = getattr(rule, "min_rating", None) if rule is not None else None
+        return getattr(p, column, None) if column else None
 
 
 def _r(corner: Corner, role: str, key: str) -> float | None:
@@ -112,11 +137,8 @@ def switch_items(refs, part, role, ctx: PartContext, policy) -> list[StressItem]
     """Drain voltage, peak and RMS current, and junction temperature of the primary switch."""
     out = _Items(refs, part, role, policy)
     d = ctx.design
-    fb = d.feedback
-    ig = float(fb.get("gate_current", DEFAULT_GATE_CURRENT_A)) if isinstance(fb.get("gate_current", 0), (int, float)) \
-        else DEFAULT_GATE_CURRENT_A
-    vgs = float(fb.get("gate_voltage", DEFAULT_GATE_VOLTAGE_V)) if isinstance(fb.get("gate_voltage", 0), (int, float)) \
-        else DEFAULT_GATE_VOLTAGE_V
+    ig_on, ig_off, vgs, how = gate_drive(d.feedback, ctx.gate_resistance)
+    ctx.assumptions.add(f"switch gate drive: {how}")
     for c in ctx.corners:
         out.add("voltage", _r(c, role, "v_peak"), c.id)
         if c.waves is None:
@@ -134,12 +156,10 @@ def switch_items(refs, part, role, ctx: PartContext, policy) -> list[StressItem]
         notes = []
         if part.qg is None:
             notes.append("no gate charge in the catalog: switching overlap loss not modelled")
-        ctx.assumptions.add(f"switch gate drive {DEFAULT_GATE_CURRENT_A:g} A at {DEFAULT_GATE_VOLTAGE_V:g} V "
-                            "unless [feedback] gate_current / gate_voltage are given (common practice)")
         th = semi.mosfet_losses(
             i_rms, i_pk, i_valley, _r(c, role, "v_peak") or c.vin + vr, c.fsw, c.mode.lower(),
             rds25=part.rds_on, rds125=part.rds_on_125, coss=part.coss or 0.0, qg=part.qg or 0.0,
-            gate_drive_current_a=ig, vgs=vgs, t_amb_c=c.t_amb, rth_ja=part.rth_ja,
+            gate_drive_current_a=ig_off, gate_drive_current_on_a=ig_on, vgs=vgs, t_amb_c=c.t_amb, rth_ja=part.rth_ja,
             valley_v=max(0.0, c.vin - vr) if c.mode == "BCM" else None, v_in=c.vin,
             v_on=c.vin + vr if c.mode == "CCM" else None,  # turn-on against the reflected plateau, not the spike
             tj_max_c=part.tj_max or 150.0)
@@ -149,6 +169,42 @@ def switch_items(refs, part, role, ctx: PartContext, policy) -> list[StressItem]
         out.add("temperature", th.tj, c.id,
                 detail=detail or f"P = {th.p_total:.3g} W (conduction {th.p_cond:.3g} W at Rds {th.rds_at_tj:.3g} Ω)")
         out.add("power", th.p_total, c.id, rating=None)
+    return out.items
+
+
+def _number(value: Any) -> float | None:
+    return float(value) if isinstance(value, (int, float)) and not isinstance(value, bool) else None
+
+
+def gate_drive(feedback: dict, r_gate: float | None) -> tuple[float, float, float, str]:
+    """Turn-on and turn-off gate current [A], drive voltage [V] and a sentence saying where they came from."""
+    vgs = _number(feedback.get("gate_voltage")) or DEFAULT_GATE_VOLTAGE_V
+    i_drv = _number(feedback.get("gate_current"))
+    src = f"[feedback] gate_current {i_drv:g} A" if i_drv else \
+        f"driver {DEFAULT_GATE_CURRENT_A:g} A (assumed, low end of small controllers' drivers)"
+    i_drv = i_drv or DEFAULT_GATE_CURRENT_A
+    if r_gate is None:
+        return i_drv, i_drv, vgs, f"{src} at {vgs:g} V; no gate resistor mapped ([roles] gate_resistor)"
+    r = r_gate + DEFAULT_DRIVER_RESISTANCE_OHM
+    vpl = min(DEFAULT_MILLER_PLATEAU_V, 0.9 * vgs)
+    ig_on, ig_off = min(i_drv, (vgs - vpl) / r), min(i_drv, vpl / r)
+    return ig_on, ig_off, vgs, (f"gate resistor {r_gate:g} Ω + driver {DEFAULT_DRIVER_RESISTANCE_OHM:g} Ω, plateau "
+                                f"{vpl:g} V (assumed): {ig_on:.3g} A on, {ig_off:.3g} A off, capped by the {src}")
+
+
+def gate_resistor_items(refs, part, role, ctx: PartContext, policy) -> list[StressItem]:
+    """Gate resistor: its share Rg/(Rg + Rdrv) of the gate-charge energy Qg·Vgs·fs."""
+    out = _Items(refs, part, role, policy)
+    switch = ctx.switch_part
+    for c in ctx.current_corners:
+        if part.resistance is None or switch is None or switch.qg is None:
+            missing = "resistance" if part.resistance is None else "switch gate charge (qg)"
+            out.add("power", None, c.id, detail=f"no {missing} in the catalog: gate resistor power not computed")
+            continue
+        _on, _off, vgs, _how = gate_drive(ctx.design.feedback, part.resistance)
+        p = semi.gate_resistor_power(switch.qg, vgs, c.fsw, part.resistance, DEFAULT_DRIVER_RESISTANCE_OHM)
+        ctx.add_loss(c.id, out.refs[0], p)
+        out.add("power", p, c.id, temperature=c.t_amb, detail=f"Qg·Vgs·fs·Rg/(Rg + Rdrv), Qg = {switch.qg:.3g} C")
     return out.items
 
 
@@ -227,83 +283,191 @@ def clamp_items(refs, parts: dict[str, Any], role, ctx: PartContext, policy) -> 
 # Capacitor banks
 # --------------------------------------------------------------------------------------------
 
+#: ESR assumed for a capacitor whose catalog row has none, in the split where it takes the most
+#: current (a very low ESR); the split where it takes none is also run and each part keeps the
+#: larger of its two currents (conservative for every part of the bank).
+MISSING_ESR_LOW_OHM = 1e-3
+
+
+def _bank_wave(role: str, corner: Corner):
+    if corner.waves is None:
+        return None
+    key = "input_cap" if role == "input_cap" else role if role in corner.waves else \
+        f"output_cap:{role.split(':')[1]}" if ":" in role else "output_cap"
+    return corner.waves.get(key)
+
+
+def _bank_currents(wave, caps: list[str], parts: dict[str, Any], eff: dict[str, float]):
+    """Each capacitor's RMS current [A] (None when it cannot be computed) and the split used.
+
+    Parts without a catalog capacitance are left out of the split (the others carry their share);
+    parts without an ESR are run at a very low ESR and left out, each part keeping its larger
+    current, so a blank rating never flatters any part of the bank.
+    """
+    known = [r for r in caps if parts[r].capacitance]
+    if not known:
+        return {r: None for r in caps}, None
+    no_esr = [r for r in known if parts[r].esr is None]
+
+    def run(members, esr_of_missing):
+        models = [caps_model.CapacitorModel(r, max(eff[r], 1e-15), parts[r].esr if parts[r].esr is not None
+                                            else esr_of_missing, parts[r].esl or 0.0) for r in members]
+        return caps_model.split_bank_current(wave, models)
+
+    split = run(known, MISSING_ESR_LOW_OHM)
+    currents = {r: float(i) for r, i in zip(known, split.i_rms)}
+    rest = [r for r in known if r not in no_esr]
+    if no_esr and rest:
+        other = run(rest, MISSING_ESR_LOW_OHM)
+        for r, i in zip(rest, other.i_rms):
+            currents[r] = max(currents[r], float(i))
+    return {r: currents.get(r) for r in caps}, split
+
+
 def bank_items(refs, parts: dict[str, Any], role, ctx: PartContext, policy, *, requirement_h=None) -> list[StressItem]:
-    """Every capacitor of a parallel bank: voltage, ripple share, capacitance after bias, temperature, life."""
-    items: list[StressItem] = []
+    """Every capacitor of a parallel bank: voltage, ripple share, capacitance after bias, hot-spot
+    temperature at the worst corner and life over the mission profile."""
     caps = [r for r in refs if parts[r].category == "capacitor"]
     collectors = {r: _Items([r], parts[r], role, policy) for r in caps}
     worst_ripple = -1.0
-    for c in ctx.corners:
-        v_dc = _r(c, role, "v_dc")
-        if v_dc is None:
-            continue
-        models, eff = [], {}
+
+    def effective(c_v_dc: float) -> dict[str, float]:
+        eff = {}
         for r in caps:
             p = parts[r]
+            if not p.capacitance:
+                continue
             c_eff, note, approx = caps_model.effective_capacitance(
-                p.capacitance or 0.0, v_dc, p.v_rated or math.inf, p.dielectric if p.subtype == "ceramic" else None,
+                p.capacitance, c_v_dc, p.v_rated or math.inf, p.dielectric if p.subtype == "ceramic" else None,
                 p.curves.get("dc_bias") or None)
             if approx and p.subtype == "ceramic":
                 ctx.assumptions.add(f"{r}: {note}")
             eff[r] = c_eff
-            models.append(caps_model.CapacitorModel(r, max(c_eff, 1e-15), p.esr if p.esr is not None else 1e-3,
-                                                    p.esl or 0.0))
-        split = None
-        if c.waves is not None and models:
-            wave_key = "input_cap" if role == "input_cap" else role if role in c.waves else f"output_cap:{role.split(':')[1]}" \
-                if ":" in role else "output_cap"
-            wave = c.waves.get(wave_key)
-            if wave is not None:
-                split = caps_model.split_bank_current(wave, models)
-                total = float(split.i_bank_ac_rms)
-                if total > worst_ripple:
-                    worst_ripple = total
-                    ctx.bank_splits[role] = {
-                        "corner": c.id, "harmonics": split.n_harmonics, "captured": split.captured,
-                        "i_bank_rms": total,
-                        "v_pp": split.v_pp,
-                        "caps": [{"ref": r, "part_number": parts[r].part_number, "i_rms": float(i),
-                                  "c_eff": eff[r], "esr": parts[r].esr} for r, i in zip(caps, split.i_rms)]}
-        for k, r in enumerate(caps):
+        return eff
+
+    for c in ctx.corners:
+        v_dc = _r(c, role, "v_dc")
+        if v_dc is None:
+            continue
+        eff = effective(v_dc)
+        wave = _bank_wave(role, c)
+        currents, split = _bank_currents(wave, caps, parts, eff) if wave is not None else ({}, None)
+        if split is not None and float(split.i_bank_ac_rms) > worst_ripple:
+            worst_ripple = float(split.i_bank_ac_rms)
+            ctx.bank_splits[role] = {
+                "corner": c.id, "harmonics": split.n_harmonics, "captured": split.captured,
+                "i_bank_rms": float(split.i_bank_ac_rms), "v_pp": split.v_pp,
+                "caps": [{"ref": r, "part_number": parts[r].part_number, "i_rms": currents.get(r),
+                          "c_eff": eff.get(r), "esr": parts[r].esr} for r in caps]}
+        for r in caps:
             p, out = parts[r], collectors[r]
             v_pp = split.v_pp if split is not None else (_r(c, role, "v_ripple_pp") or 0.0)
             out.add("voltage", v_dc + 0.5 * v_pp, c.id, detail=f"DC {v_dc:.4g} V + half the ripple")
             if p.subtype == "ceramic":
-                out.add("capacitance", eff[r], c.id, rating=p.capacitance,
-                        detail=f"{p.dielectric or 'ceramic'} at {v_dc:.3g} V DC bias")
-            if split is None:
+                if p.capacitance:
+                    out.add("capacitance", eff[r], c.id, rating=p.capacitance,
+                            detail=f"{p.dielectric or 'ceramic'} at {v_dc:.3g} V DC bias")
+                else:
+                    out.add("capacitance", None, c.id, rating=None, detail="no capacitance in the catalog")
+            if wave is None:
                 continue
-            i_rms = float(split.i_rms[k])
+            i_rms = currents.get(r)
+            if i_rms is None:
+                why = "no capacitance in the catalog: its share of the bank's ripple current is not computed"
+                out.add("ripple_current", None, c.id, rating=p.ripple_current, detail=why)
+                out.add("temperature", None, c.id, rating=p.t_max, detail=why)
+                continue
+            if p.esr is None:
+                ctx.assumptions.add(f"{r}: no ESR in the catalog: the bank is split with it at "
+                                    f"{MISSING_ESR_LOW_OHM * 1e3:g} mΩ and without it, each part keeping the larger current")
             ctx.add_loss(c.id, r, i_rms * i_rms * (p.esr or 0.0))
             if p.subtype == "ceramic":
                 out.add("temperature", c.t_amb, c.id, rating=p.t_max, detail="ambient; self-heating neglected")
                 if p.ripple_current is not None:
                     out.add("ripple_current", i_rms, c.id, rating=p.ripple_current)
                 continue
-            rating = None
-            detail = ""
+            rating, detail, kf = None, "", 1.0
             if p.ripple_current is not None:
-                rr = caps_model.ripple_rating(p.ripple_current, c.fsw, c.t_amb, p.curves.get("ripple_freq") or None,
-                                              p.curves.get("ripple_temp") or None,
-                                              f_rated=p.ripple_freq or 100e3, t_rated=p.ripple_temp or p.t_max or 105.0)
-                rating = rr.i_allowed
+                rr = _ripple_rating(p, c)
+                rating, kf = rr.i_allowed, rr.freq_multiplier
                 detail = f"rating ×{rr.freq_multiplier:.3g} (frequency) ×{rr.temp_multiplier:.3g} (temperature)"
                 for note in rr.notes:
                     ctx.assumptions.add(f"{r}: {note}")
+            else:
+                detail = "no ripple_current rating in the catalog"
             out.add("ripple_current", i_rms, c.id, rating=rating, detail=detail)
-            t_hot = caps_model.hot_spot_temperature(c.t_amb, i_rms, p.esr or 0.0, ripple_rise_k=p.ripple_rise,
-                                                    i_rated=p.ripple_current)
-            ctx.assumptions.add(f"{r}: hot spot by {caps_model.hot_spot_model(p.ripple_rise, p.ripple_current, None)}")
-            out.add("temperature", t_hot, c.id, rating=p.t_max, detail="hot spot (ambient + ripple self-heating)")
-            if p.subtype == "aluminium_electrolytic" and p.life_hours is not None:
-                t0 = p.life_temp or p.t_max
-                life = caps_model.electrolytic_life(p.life_hours, t0, t_hot) if t0 is not None else None
-                out.add("life", life, c.id, required=requirement_h,
-                        detail=f"10-degree rule from {p.life_hours:g} h at {t0:g} °C, hot spot {t_hot:.1f} °C")
+            t_hot, why = _hot_spot(p, c.t_amb, i_rms, kf, ctx, r)
+            out.add("temperature", t_hot, c.id, rating=p.t_max,
+                    detail=why or "hot spot (ambient + ripple self-heating) at the worst corner")
+    for r in caps:
+        p = parts[r]
+        if p.subtype in ("aluminium_electrolytic", "polymer"):
+            _life_item(collectors[r], r, p, role, caps, parts, ctx, requirement_h)
+    items: list[StressItem] = []
     for r in refs:
         if r in collectors:
             items += collectors[r].items
     return items
+
+
+def _ripple_rating(p, c: Corner):
+    return caps_model.ripple_rating(p.ripple_current, c.fsw, c.t_amb, p.curves.get("ripple_freq") or None,
+                                    p.curves.get("ripple_temp") or None,
+                                    f_rated=p.ripple_freq or 100e3, t_rated=p.ripple_temp or p.t_max or 105.0)
+
+
+def _hot_spot(p, t_amb: float, i_rms: float, kf: float, ctx: PartContext, ref: str) -> tuple[float | None, str]:
+    """Hot-spot temperature [°C] of an electrolytic or polymer part, or None and the reason."""
+    if not (p.ripple_rise is not None and p.ripple_current) and p.esr is None:
+        return None, "no ripple_rise and no esr in the catalog: self-heating not computed"
+    t_hot = caps_model.hot_spot_temperature(t_amb, i_rms, p.esr or 0.0, ripple_rise_k=p.ripple_rise,
+                                            i_rated=p.ripple_current, freq_multiplier=kf)
+    model = caps_model.hot_spot_model(p.ripple_rise, p.ripple_current, None, freq_multiplier=kf)
+    ctx.assumptions.add(f"{ref}: hot spot by {model}")
+    return t_hot, ""
+
+
+def _life_item(out: _Items, ref: str, p, role: str, caps, parts, ctx: PartContext, requirement_h) -> None:
+    """Life over the mission profile (Palmgren-Miner over the points' hot spots)."""
+    if p.life_hours is None or (p.life_temp or p.t_max) is None:
+        missing = "life_hours" if p.life_hours is None else "life_temp or t_max"
+        out.add("life", None, "mission", required=requirement_h, detail=f"no {missing} in the catalog: life not computed")
+        return
+    t0 = p.life_temp or p.t_max
+    law = caps_model.polymer_life if p.subtype == "polymer" else caps_model.electrolytic_life
+    lives, fractions, texts = [], [], []
+    for fraction, c in ctx.mission:
+        v_dc = _r(c, role, "v_dc")
+        wave = _bank_wave(role, c)
+        if v_dc is None or wave is None:
+            continue
+        eff = {r: caps_model.effective_capacitance(parts[r].capacitance, v_dc, parts[r].v_rated or math.inf,
+                                                   parts[r].dielectric if parts[r].subtype == "ceramic" else None,
+                                                   parts[r].curves.get("dc_bias") or None)[0]
+               for r in caps if parts[r].capacitance}
+        currents, _split = _bank_currents(wave, caps, parts, eff)
+        i_rms = currents.get(ref)
+        if i_rms is None:
+            out.add("life", None, "mission", required=requirement_h,
+                    detail="no capacitance in the catalog: ripple share and life not computed")
+            return
+        kf = _ripple_rating(p, c).freq_multiplier if p.ripple_current is not None else 1.0
+        t_hot, why = _hot_spot(p, c.t_amb, i_rms, kf, ctx, ref)
+        if t_hot is None:
+            out.add("life", None, "mission", required=requirement_h, detail=why)
+            return
+        life = law(p.life_hours, t0, t_hot)
+        lives.append(life)
+        fractions.append(fraction)
+        texts.append(f"{fraction:.0%} at {c.id}: hot spot {t_hot:.1f} °C → {life:,.0f} h")
+    if not lives:
+        out.add("life", None, "mission", required=requirement_h, detail="no mission point could be solved")
+        return
+    total = caps_model.miner_life(lives, fractions)
+    rule_name = "20-degree rule (polymer)" if p.subtype == "polymer" else "10-degree rule"
+    out.add("life", total, "mission", required=requirement_h,
+            detail=f"{rule_name} from {p.life_hours:g} h at {t0:g} °C, Miner's rule over the mission profile: "
+                   + "; ".join(texts))
 
 
 # --------------------------------------------------------------------------------------------
@@ -325,10 +489,38 @@ def sense_items(refs, part, role, ctx: PartContext, policy) -> list[StressItem]:
 
 
 def transformer_items(refs, part, role, ctx: PartContext, policy) -> list[StressItem]:
-    """Peak magnetizing current against the saturation current (current-limit corners included)."""
+    """Peak current against the saturation current, peak flux density against the core's
+    saturation flux density, winding copper loss; temperature and insulation not yet modelled.
+
+    The copper loss uses the DC winding resistances (catalog ``dcr_pri``/``dcr_sec``, else the
+    design's ``[transformer] dcr_pri`` and the output's ``dcr``): skin and proximity effects
+    raise the real loss above it, so it counts in the efficiency budget as a floor.
+    """
     out = _Items(refs, part, role, policy)
+    d = ctx.design
+    dcr_pri = part.dcr_pri if part.dcr_pri is not None else d.transformer.dcr_pri
+    dcr_sec = part.dcr_sec if part.dcr_sec is not None else d.outputs[0].dcr
     for c in ctx.current_corners:
         out.add("saturation", _r(c, "transformer", "i_peak"), c.id)
+        b_peak = _r(c, "transformer", "b_peak")
+        if b_peak is None:
+            out.add("flux_density", None, c.id,
+                    detail="peak flux density not computed: give [transformer] turns_primary and ae")
+        else:
+            out.add("flux_density", b_peak, c.id,
+                    detail=f"B = Lm·Ipk/(Np·Ae) at Ipk = {_r(c, 'transformer', 'i_peak') or 0:.3g} A")
+        i_pri, i_sec = _r(c, "transformer", "i_rms_pri"), _r(c, "transformer", "i_rms_sec")
+        if dcr_pri is not None and i_pri is not None:
+            p_cu = i_pri * i_pri * dcr_pri + (i_sec * i_sec * dcr_sec if dcr_sec is not None and i_sec else 0.0)
+            ctx.add_loss(c.id, out.refs[0], p_cu)
+        out.add("temperature", None, c.id, rating=part.t_max,
+                detail="transformer temperature not modelled yet (core and AC winding losses, thermal resistance): "
+                       "measure the hot spot on the bench or give it in [[extra_stress]] temperature")
+    ctx.assumptions.add("transformer copper loss from the DC winding resistances only (AC resistance and core loss "
+                        "not in the efficiency estimate)")
+    out.add("insulation", None, "", rating=None,
+            detail="insulation (class, working voltage, creepage and clearance) is not checked by partcheck: "
+                   "it follows the safety standard of the end product")
     return out.items
 
 
@@ -407,6 +599,10 @@ def feedback_items(refs, parts: dict[str, Any], role, ctx: PartContext, policy) 
     return items
 
 
+#: Stresses a ``[[extra_stress]]`` table may give (attributes of :class:`partcheck.design.ExtraStress`).
+EXTRA_PARAMETERS = ("voltage", "current_rms", "current_peak", "power", "temperature")
+
+
 def extra_items(extra, parts: dict[str, Any], ctx: PartContext, policy) -> list[StressItem]:
     """User-given stresses (``[[extra_stress]]``) for parts outside the modelled power stage."""
     items: list[StressItem] = []
@@ -414,9 +610,8 @@ def extra_items(extra, parts: dict[str, Any], ctx: PartContext, policy) -> list[
         if ref not in parts:
             continue
         out = _Items([ref], parts[ref], "extra", policy)
-        for parameter, value in (("voltage", extra.voltage), ("current_rms", extra.current_rms),
-                                 ("current_peak", extra.current_peak), ("power", extra.power),
-                                 ("temperature", extra.temperature)):
+        for parameter in EXTRA_PARAMETERS:
+            value = getattr(extra, parameter)
             if value is not None:
                 out.add(parameter, value, "user", temperature=ctx.design.environment.ambient_max,
                         detail=extra.note or "given in [[extra_stress]]")
@@ -429,7 +624,8 @@ def extra_items(extra, parts: dict[str, Any], ctx: PartContext, policy) -> list[
 
 #: Role name (before any ":output") → builder.  Builders taking a parts dict handle groups.
 SINGLE: dict[str, Callable] = {"switch": switch_items, "rectifier": diode_items, "clamp_diode": diode_items,
-                               "current_sense": sense_items, "transformer": transformer_items}
+                               "current_sense": sense_items, "transformer": transformer_items,
+                               "gate_resistor": gate_resistor_items}
 GROUP: dict[str, Callable] = {"clamp": clamp_items, "input_cap": bank_items, "output_cap": bank_items,
                               "feedback_divider": divider_items, "optocoupler": feedback_items,
                               "shunt_reference": feedback_items}

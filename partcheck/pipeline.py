@@ -27,23 +27,18 @@ from typing import Any, Sequence
 
 import numpy as np
 
-from . import __version__, partstress
+from . import __version__, coverage, partstress
 from .bom.match import match_bom
 from .bom.read import Bom, read_bom
 from .design import Design, load_design
 from .errors import DesignError, InputError
 from .result import CheckResult
 from .rules.alternatives import rank_alternatives
-from .rules.evaluate import Finding, evaluate, not_assessed_finding, unmatched_finding, verdict
+from .rules.evaluate import Finding, apply_waivers, evaluate, verdict
 from .rules.policy import DEFAULT_POLICY, Policy, effective_rules_table, load_policy
 from .rules.waivers import parse_waivers
 from .stress import flyback
 from .stress import semiconductors as semi
-
-#: Statuses a BOM line must have for its part to be checked.
-_USABLE = ("matched",)
-#: Finding statuses the result keeps (the rules also report stresses no rule limits: "unlimited").
-_REPORTED = ("pass", "warn", "fail", "waived", "not_assessed", "unmatched")
 
 
 def _sha256(path: Path | None) -> str | None:
@@ -83,13 +78,52 @@ def _with_catalog_vf(design: Design, rectifier_parts: dict[str, Any]) -> tuple[D
     return dataclasses.replace(design, outputs=tuple(outputs)), notes
 
 
-def _corners(design: Design, suffix: str = "") -> tuple[flyback.StressResult, list[partstress.Corner]]:
+def _corners(design: Design, suffix: str = "", eta_at: dict[str, float] | None = None
+             ) -> tuple[flyback.StressResult, list[partstress.Corner]]:
+    """The engine's corners as part-model corners; ``eta_at`` (corner id → efficiency factor
+    relative to the design's) re-solves those corners at a lower efficiency."""
     result = flyback.evaluate(design)
+    if eta_at:
+        for factor in sorted({f for f in eta_at.values() if f < 1.0}):
+            lower = _scaled(design, "efficiency", factor)
+            redone = {c.id: c for c in flyback.evaluate(lower).corners}
+            for k, c in enumerate(result.corners):
+                if eta_at.get(c.id) == factor and c.id in redone:
+                    result.corners[k] = redone[c.id]
+                    result.corners[k].design_for_waves = lower  # type: ignore[attr-defined]
     corners = []
     for c in result.corners:
-        waves = None if c.load == "surge" else flyback.corner_waveforms(design, c.id)
+        source = getattr(c, "design_for_waves", design)
+        waves = None if c.load == "surge" else flyback.corner_waveforms(source, c.id)
         corners.append(partstress.Corner(c.id + suffix, c.load, c.vin, c.mode, c.fsw, c.t_amb, c.roles, waves))
     return result, corners
+
+
+def _mission_corners(design: Design) -> tuple[list[tuple[float, partstress.Corner]], list[str]]:
+    """One solved corner per mission-profile point (the stated default when the design has none)."""
+    from .design import mission_points
+    from .stress.corners import FULL, CornerSpec
+
+    out: list[tuple[float, partstress.Corner]] = []
+    notes: list[str] = []
+    points = mission_points(design)
+    for k, pt in enumerate(points, 1):
+        variant = dataclasses.replace(design, outputs=tuple(dataclasses.replace(o, iout=o.iout * pt.load)
+                                                            for o in design.outputs))
+        vin = pt.vin if pt.vin is not None else design.input.vin_nom
+        spec = CornerSpec(f"mission{k}-{pt.load:.0%}-{pt.ambient_c:g}C", vin, FULL, pt.ambient_c)
+        try:
+            result = flyback.evaluate(variant, [spec])
+        except DesignError as exc:
+            notes.append(f"mission point {k}: no valid operating point ({exc.message})")
+            continue
+        if not result.corners:
+            notes.append(f"mission point {k}: no valid operating point")
+            continue
+        c = result.corners[0]
+        waves = flyback.corner_waveforms(variant, c.id, [spec])
+        out.append((pt.time, partstress.Corner(c.id, c.load, c.vin, c.mode, c.fsw, c.t_amb, c.roles, waves)))
+    return out, notes
 
 
 #: Tolerances the check applies to the design itself (the others are analysed by `partcheck stress`).
@@ -114,7 +148,8 @@ def _scaled(design: Design, key: str, factor: float) -> Design:
     return design
 
 
-def _tolerance_corners(design: Design) -> tuple[list[partstress.Corner], list[str]]:
+def _tolerance_corners(design: Design, eta_at: dict[str, float] | None = None
+                       ) -> tuple[list[partstress.Corner], list[str]]:
     """Every corner again at each extreme of the design's [tolerances] box (2^k settings).
 
     Worst-case analysis by the extremes (common practice): for a stress monotone in each
@@ -132,7 +167,7 @@ def _tolerance_corners(design: Design) -> tuple[list[partstress.Corner], list[st
             variant = _scaled(variant, key, 1.0 + sign * design.tolerances[key])
         label = ",".join(f"{k}{'+' if sg > 0 else '-'}{design.tolerances[k]:.0%}" for k, sg in zip(keys, signs))
         try:
-            corners += _corners(variant, f"@{label}")[1]
+            corners += _corners(variant, f"@{label}", eta_at)[1]
         except DesignError as exc:
             notes.append(f"tolerance extreme {label}: {exc.message}")
     notes.insert(0, f"tolerances: every corner also evaluated at the {2 ** len(keys)} extremes of "
@@ -140,93 +175,33 @@ def _tolerance_corners(design: Design) -> tuple[list[partstress.Corner], list[st
     return corners, notes
 
 
-@dataclasses.dataclass
-class _Assignment:
-    """Which BOM references fill which role, and the catalog record of each reference."""
-
-    roles: dict[str, tuple[str, ...]]
-    records: dict[str, Any]  # ref → PartRecord (matched lines only)
-    line_of: dict[str, Any]  # ref → LineMatch
-    findings: list[Finding]  # references that cannot be assessed
-
-
-def _assign(design: Design, matches, records_by_pn: dict[str, Any]) -> _Assignment:
-    line_of = {ref: m for m in matches for ref in m.refs}
-    records = {ref: records_by_pn[m.part_number] for ref, m in line_of.items()
-               if m.status in _USABLE and m.part_number in records_by_pn}
-    findings: list[Finding] = []
-    roles: dict[str, tuple[str, ...]] = {}
-    for role, refs in design.roles.items():
-        usable = []
-        for ref in refs:
-            m = line_of.get(ref)
-            if m is None:
-                findings.append(unmatched_finding([ref], role=role, reason=f"{ref} is named in [roles] but is not on the BOM"))
-            elif m.status == "not_fitted":
-                continue
-            elif ref not in records:
-                continue  # reported once per BOM line below
-            else:
-                usable.append(ref)
-        if usable:
-            roles[role] = tuple(usable)
-    return _Assignment(roles, records, line_of, findings)
-
-
-def _line_findings(matches, assigned_refs: set[str], extra_refs: set[str]) -> list[Finding]:
-    """Unmatched lines, and fitted matched parts that neither a role nor [[extra_stress]] covers."""
-    findings = []
-    for m in matches:
-        if m.status == "not_fitted":
-            continue
-        if m.status not in _USABLE:
-            reason = f"BOM line {m.line} is {m.status}: {m.reason}"
-            findings.append(unmatched_finding(m.refs, part_number=m.part_number or "", reason=reason,
-                                              category=m.category or ""))
-            continue
-        left = [r for r in m.refs if r not in assigned_refs and r not in extra_refs]
-        if left:
-            findings.append(not_assessed_finding(
-                left, m.part_number or "", "", "no stress model covers this part and no [[extra_stress]] gives one: "
-                "map it in [roles] or describe its stress in [[extra_stress]]", category=m.category or ""))
-    return findings
-
-
-def _unlimited_parts(findings: list[Finding], policy: Policy) -> list[Finding]:
-    """A part whose every stress went unchecked (no rule limits any of them) is not assessed."""
-    by_part: dict[tuple, list[Finding]] = {}
-    for f in findings:
-        by_part.setdefault((f.refs, f.part_number, f.role), []).append(f)
-    out = []
-    for (refs, part_number, role), group in by_part.items():
-        if group and all(f.status == "unlimited" for f in group):
-            params = ", ".join(sorted({f.parameter for f in group}))
-            out.append(not_assessed_finding(
-                refs, part_number, role, f"policy {policy.name} has no rule for any stress computed for this part "
-                f"({params}): add a rule or map the part to a role", category=group[0].category))
-    return out
-
-
-def _part_items(design, assignment, ctx, policy, *, override: tuple[str, Any] | None = None):
+def _part_items(design, assignment, ctx, policy, *, override: dict[str, Any] | None = None):
+    """Stress items of every mapped part; with ``override`` (ref → candidate record) only the
+    roles that hold one of those refs, with the candidate in their place."""
     items = []
     for role, refs in assignment.roles.items():
         parts = dict(assignment.records)
         if override is not None:
-            if override[0] not in refs:
+            if not set(override) & set(refs):
                 continue
-            parts[override[0]] = override[1]
+            parts.update(override)
         items += partstress.role_items(role, refs, parts, ctx, policy)
+    records = {**assignment.records, **(override or {})}
+    given: set[tuple[str, str]] = set()
     for extra in design.extra_stress:
-        if override is None:
-            items += partstress.extra_items(extra, assignment.records, ctx, policy)
-    return items
+        given |= {(ref, p) for ref in extra.refs for p in partstress.EXTRA_PARAMETERS if getattr(extra, p) is not None}
+        if override is None or set(extra.refs) & set(override):
+            items += partstress.extra_items(extra, records, ctx, policy)
+    # A stress the model could not compute but the designer measured or worked out replaces the gap.
+    return [i for i in items if not (i.stress is None and i.role != "extra"
+                                     and any((r, i.parameter) in given for r in i.refs))]
 
 
 @dataclasses.dataclass
 class _Prepared:
     design: Design
     matches: list
-    assignment: _Assignment
+    assignment: coverage.Assignment
     stress_result: flyback.StressResult
     ctx: partstress.PartContext
     items: list
@@ -234,24 +209,76 @@ class _Prepared:
     notes: list[str]
 
 
+#: Passes of the efficiency refinement (the primary currents at the modelled efficiency raise
+#: the losses a little; two passes settle it within a tenth of a point for the demos).
+EFFICIENCY_PASSES = 3
+
+
 def _prepare(design: Design, bom_data: Bom, cat, pins: dict[str, str], policy: Policy | None) -> _Prepared:
-    """Match the BOM, solve the corners and compute every mapped part's stress items."""
+    """Match the BOM, solve the corners and compute every mapped part's stress items.
+
+    The primary currents are solved at the lower of the design's efficiency and the one the
+    modelled losses give at each corner, so an optimistic efficiency never lowers them.
+    """
     records = cat.parts()
     records_by_pn = {p.part_number: p for p in records}
     matches = match_bom(bom_data, records, pins)
-    assignment = _assign(design, matches, records_by_pn)
+    assignment = coverage.assign(design, matches, records_by_pn)
     rect_parts = {}
     for role, refs in assignment.roles.items():
         if role.split(":")[0] == "rectifier" and refs:
             name = role.split(":")[1] if ":" in role else design.outputs[0].name
             rect_parts[name] = assignment.records[refs[0]]
     design, vf_notes = _with_catalog_vf(design, rect_parts)
-    stress_result, corners = _corners(design)
-    extra_corners, tolerance_notes = _tolerance_corners(design)
-    ctx = partstress.PartContext(design, corners + extra_corners)
-    items = _part_items(design, assignment, ctx, policy)
+    mission, mission_notes = _mission_corners(design)
+    gate, switch = assignment.roles.get("gate_resistor"), assignment.roles.get("switch")
+    r_gate = assignment.records[gate[0]].resistance if gate else None
+    switch_part = assignment.records[switch[0]] if switch else None
+    eta_at: dict[str, float] = {}
+    for n_pass in range(1, EFFICIENCY_PASSES + 1):
+        stress_result, corners = _corners(design, eta_at=eta_at)
+        extra_corners, tolerance_notes = _tolerance_corners(design, eta_at)
+        ctx = partstress.PartContext(design, corners + extra_corners, mission=mission, efficiency_factors=eta_at,
+                                     gate_resistance=r_gate, switch_part=switch_part)
+        items = _part_items(design, assignment, ctx, policy)
+        lower = _efficiency_factors(design, stress_result, ctx)
+        settled = all(abs(lower.get(k, 1.0) - eta_at.get(k, 1.0)) < 1e-3 for k in set(lower) | set(eta_at))
+        if settled or n_pass == EFFICIENCY_PASSES:
+            break
+        eta_at = lower
+    ctx.assumptions |= _stated_defaults(design)
     return _Prepared(design, matches, assignment, stress_result, ctx, items, records_by_pn,
-                     vf_notes + tolerance_notes)
+                     vf_notes + tolerance_notes + mission_notes)
+
+
+def _stated_defaults(design: Design) -> set[str]:
+    """The engine defaults this design relies on, for the report's assumptions."""
+    from .design import DEFAULT_CURRENT_LIMIT_DELAY_S, DEFAULT_MISSION_TEXT
+
+    out = set()
+    conv = design.converter
+    if conv.current_limit is not None and not conv.current_limit_delay_given:
+        out.add(f"current-limit propagation delay {DEFAULT_CURRENT_LIMIT_DELAY_S * 1e9:g} ns (a typical controller's; "
+                "give [converter] current_limit_delay): the switch peak overshoots the limit by Vin/Lp·t_pd")
+    if not design.mission:
+        out.add(f"mission profile: {DEFAULT_MISSION_TEXT}")
+    out.add("diode peak current checked against the repetitive peak rating i_frm; the surge rating ifsm is for "
+            "inrush and start-up only")
+    return out
+
+
+def _efficiency_factors(design: Design, stress_result, ctx) -> dict[str, float]:
+    """Corner id → (modelled efficiency / design efficiency) where the model is lower."""
+    factors = {}
+    for c in stress_result.corners:
+        losses = ctx.losses.get(c.id)
+        if not losses or c.load == "surge":
+            continue
+        p_out = sum(o.vout * c.iout.get(o.name, o.iout) for o in design.outputs)
+        eta = semi.estimated_efficiency(p_out, losses)
+        if eta < design.converter.efficiency - 1e-9:
+            factors[c.id] = round(eta / design.converter.efficiency, 4)
+    return factors
 
 
 def stress_report(design_path: str | Path | Design, *, bom: str | Path | None = None, db: str | None = None,
@@ -311,7 +338,7 @@ def check(design_path: str | Path | Design, *, bom: str | Path | None = None, po
     design = design_path if isinstance(design_path, Design) else load_design(design_path)
     today = today or _dt.date.today()
     pol, origin, policy_path = resolve_policy(policy, design)
-    waivers = parse_waivers(list(design.waivers), file=design.file)
+    waivers = parse_waivers(list(design.waivers), file=design.file, today=today)
 
     bom_path = Path(bom) if bom is not None else design.bom
     if bom_path is None:
@@ -328,9 +355,13 @@ def check(design_path: str | Path | Design, *, bom: str | Path | None = None, po
         findings = evaluate(items, pol, waivers=waivers, today=today)
         assigned = {r for refs in assignment.roles.values() for r in refs}
         extra_refs = {r for e in design.extra_stress for r in e.refs}
-        findings += assignment.findings + _line_findings(matches, assigned, extra_refs)
-        findings += _unlimited_parts(findings, pol)
-        findings = [f for f in findings if f.status in _REPORTED]
+        findings += assignment.findings + coverage.line_findings(matches, assigned, extra_refs)
+        findings += coverage.extra_stress_findings(design, assignment.line_of)
+        findings += coverage.unmodelled_role_findings(assignment, partstress.modelled_roles())
+        findings += coverage.unlimited_parts(findings, pol.name)
+        role_of = {ref: role for role, refs in assignment.roles.items() for ref in refs}
+        findings += [apply_waivers(f, waivers, today=today) for f in
+                     coverage.lifecycle_findings(matches, records_by_pn, getattr(pol, "lifecycle", None), role_of)]
 
         _suggest_alternatives(findings, design, assignment, ctx, pol, cat, waivers, today)
         catalog_hash = cat.snapshot_hash()
@@ -354,6 +385,7 @@ def check(design_path: str | Path | Design, *, bom: str | Path | None = None, po
         waivers=[_waiver_dict(w) for w in waivers],
         assumptions=sorted(ctx.assumptions),
         notes=notes,
+        bom_warnings=bom_warnings(bom_data),
         trace={"tool_version": __version__, "date": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
                "command": command or "", "design_path": design.file, "design_sha256": _sha256(design.path),
                "bom_path": str(bom_path), "bom_sha256": _sha256(Path(bom_path)), "policy": pol.name,
@@ -368,26 +400,37 @@ def check(design_path: str | Path | Design, *, bom: str | Path | None = None, po
 # --------------------------------------------------------------------------------------------
 
 def _suggest_alternatives(findings, design, assignment, ctx, policy, cat, waivers, today) -> None:
-    failing: dict[str, list[Finding]] = {}
+    """Up to three approved catalog neighbours for every failing part that pass everything in
+    its place (every reference of the failing finding replaced at once)."""
+    failing: dict[tuple[str, ...], list[Finding]] = {}
     for f in findings:
-        if f.status == "fail" and len(f.refs) == 1 and f.refs[0] in assignment.records:
-            failing.setdefault(f.refs[0], []).append(f)
-    for ref, fails in failing.items():
-        part = assignment.records[ref]
-        candidates = [p for p in cat.parts(part.category, part.subtype) if p.part_number != part.part_number]
-
-        def evaluate_candidate(candidate, ref=ref):
-            quiet = partstress.PartContext(design, ctx.corners)
-            items = [i for i in _part_items(design, assignment, quiet, policy, override=(ref, candidate))
-                     if ref in i.refs]
-            return [f for f in evaluate(items, policy, waivers=(), today=today) if f.status != "unlimited"]
-
-        alternatives = rank_alternatives(part, candidates, evaluate_candidate)
-        rows = [{"part_number": a.part_number, "description": a.description, "min_margin": a.min_margin,
-                 "worst_parameter": a.worst_parameter, "package": a.package, "same_package": a.same_package}
-                for a in alternatives]
+        if f.status != "fail" or not f.refs or not all(r in assignment.records for r in f.refs):
+            continue
+        if len({assignment.records[r].part_number for r in f.refs}) == 1:
+            failing.setdefault(tuple(f.refs), []).append(f)
+    cache: dict[tuple[str, ...], list[dict]] = {}
+    for refs, fails in failing.items():
+        if refs not in cache:
+            cache[refs] = _alternatives_for(refs, design, assignment, ctx, policy, cat, today)
         for f in fails:
-            f.alternatives = rows
+            f.alternatives = cache[refs]
+
+
+def _alternatives_for(refs, design, assignment, ctx, policy, cat, today) -> list[dict]:
+    part = assignment.records[refs[0]]
+    candidates = [p for p in cat.parts(part.category, part.subtype) if p.part_number != part.part_number]
+    mapped = list(refs)
+
+    def evaluate_candidate(candidate):
+        quiet = dataclasses.replace(ctx, assumptions=set(), bank_splits={}, losses={}, notes=[])
+        items = [i for i in _part_items(design, assignment, quiet, policy, override={r: candidate for r in mapped})
+                 if set(i.refs) & set(mapped)]
+        return [f for f in evaluate(items, policy, waivers=(), today=today) if f.status != "info"]
+
+    alternatives = rank_alternatives(part, candidates, evaluate_candidate)
+    return [{"part_number": a.part_number, "description": a.description, "min_margin": a.min_margin,
+             "worst_parameter": a.worst_parameter, "package": a.package, "same_package": a.same_package}
+            for a in alternatives]
 
 
 # --------------------------------------------------------------------------------------------
@@ -419,7 +462,7 @@ def _waiver_dict(w) -> dict:
             "date": w.date.isoformat(), "expires": w.expires.isoformat() if w.expires else None}
 
 
-_RANK = {"fail": 5, "unmatched": 4, "not_assessed": 3, "warn": 2, "waived": 1, "pass": 0}
+_RANK = {"fail": 6, "unmatched": 5, "not_assessed": 4, "warn": 3, "waived": 2, "info": 1, "pass": 0}
 
 
 def _parts_table(findings, matches, assignment, records_by_pn) -> list[dict]:
@@ -504,6 +547,11 @@ def _sweep(design, findings, assignment) -> dict:
     return _clean({"vin": [float(v) for v in vin], "series": series, "mode": [str(m) for m in data["mode"]]})
 
 
+#: Losses the efficiency estimate leaves out (said in the note, so the figure is read as an upper bound).
+UNMODELLED_LOSSES = ("transformer core loss and AC winding resistance", "controller supply and gate drive",
+                     "snubbers", "PCB copper and connectors")
+
+
 def _efficiency_notes(design, ctx) -> list[str]:
     losses = ctx.losses.get("vin_nom-full")
     if not losses:
@@ -511,10 +559,17 @@ def _efficiency_notes(design, ctx) -> list[str]:
     p_out = sum(o.vout * o.iout for o in design.outputs)
     check = semi.compare_efficiency(p_out, losses, design.converter.efficiency)
     text = (f"estimated efficiency from the modelled losses at vin_nom-full: {check.eta_estimated:.1%} "
-            f"(design file: {design.converter.efficiency:.1%}; {len(losses)} parts' losses counted)")
+            f"(design file: {design.converter.efficiency:.1%}; {len(losses)} parts' losses counted; left out: "
+            f"{', '.join(UNMODELLED_LOSSES)})")
     if check.warn:
         text += " — the two differ by more than 3 points: revise [converter] efficiency"
-    return [text]
+    notes = [text]
+    factors = getattr(ctx, "efficiency_factors", {}) or {}
+    if factors:
+        used = ", ".join(f"{cid} {design.converter.efficiency * f:.1%}" for cid, f in sorted(factors.items()))
+        notes.append(f"primary currents solved at the modelled efficiency where it is below the design file's "
+                     f"{design.converter.efficiency:.1%}: {used}")
+    return notes
 
 
 def _regulation_notes(design, items) -> list[str]:
@@ -538,6 +593,15 @@ def _regulation_notes(design, items) -> list[str]:
             text += f"; the design's target ±{target * 100:g} % is {'met' if spread.meets_target else 'NOT met'}"
         notes.append(text)
     return notes
+
+
+def bom_warnings(bom_data: Bom) -> list[str]:
+    """The BOM reader's notices and per-line warnings, one sentence each naming the line."""
+    out = [f"BOM {bom_data.path}: {n}" for n in bom_data.notices]
+    for line in bom_data.lines:
+        refs = f" ({', '.join(line.refs[:6])}{', ...' if len(line.refs) > 6 else ''})" if line.refs else ""
+        out += [f"BOM line {line.line}{refs}: {w}" for w in line.warnings]
+    return out
 
 
 def affected(findings: Sequence[dict]) -> list[dict]:

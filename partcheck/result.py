@@ -12,7 +12,7 @@ Keys of each section (values in SI units, °C for temperatures, hours for life):
     {"refs": ["C5"], "part_number": "...", "role": "output_cap:5V", "category": "capacitor",
      "parameter": "voltage", "unit": "V", "stress": 12.1, "rating": 25.0, "limit": 12.5,
      "utilization": 0.968, "margin": 0.032, "corner": "vin_max-full",
-     "status": "pass|warn|fail|waived|not_assessed|unmatched", "rule": "capacitor.ceramic.voltage",
+     "status": "pass|warn|fail|waived|not_assessed|unmatched|info", "rule": "capacitor.ceramic.voltage",
      "source": "...", "detail": "...", "waiver": {...} | null,
      "alternatives": [{"part_number": "...", "description": "...", "min_margin": 0.21,
                        "worst_parameter": "voltage"}]}
@@ -32,7 +32,9 @@ Keys of each section (values in SI units, °C for temperatures, hours for life):
 ``bank_split`` ``{"output_cap:5V": {"corner": id, "harmonics": 240,
                "caps": [{"ref": "C5", "part_number": ..., "i_rms": 1.2, "c_eff": ..., "esr": ...}]}}``.
 ``policy_rules`` the effective rules with sources; ``waivers``; ``assumptions`` (approximations
-used: generic DC-bias model, thermal defaults); ``notes`` (operating-point remarks).
+used: generic DC-bias model, thermal defaults); ``notes`` (operating-point remarks);
+``bom_warnings`` what the BOM reader noticed, one sentence each naming the line
+(``"BOM line 7 (C3): quantity says 2 but 1 reference is listed"``).
 ``trace``      ``{"tool_version", "date", "command", "design_path", "design_sha256",
                "bom_path", "bom_sha256", "policy", "policy_sha256", "catalog", "catalog_sha256"}``.
 """
@@ -45,7 +47,7 @@ from pathlib import Path
 from typing import Any
 
 #: Statuses in the order a reviewer wants to see them (worst first).
-STATUS_ORDER: tuple[str, ...] = ("fail", "unmatched", "not_assessed", "warn", "waived", "pass")
+STATUS_ORDER: tuple[str, ...] = ("fail", "unmatched", "not_assessed", "warn", "waived", "info", "pass")
 
 #: Caution printed on every report and in the README.
 CAUTION = (
@@ -76,6 +78,7 @@ class CheckResult:
     waivers: list[dict[str, Any]] = field(default_factory=list)
     assumptions: list[str] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
+    bom_warnings: list[str] = field(default_factory=list)
     trace: dict[str, Any] = field(default_factory=dict)
     caution: str = CAUTION
 

@@ -53,6 +53,9 @@ PARAMETER_LABELS: dict[str, str] = {
     "capacitance": "capacitance after DC bias",
     "life": "life",
     "saturation": "saturation",
+    "flux_density": "peak flux density",
+    "lifecycle": "lifecycle status",
+    "insulation": "insulation",
 }
 
 #: Default unit kind per parameter when a finding carries no ``unit``.
@@ -67,6 +70,9 @@ PARAMETER_UNITS: dict[str, str | None] = {
     "capacitance": "F",
     "life": "h",
     "saturation": "A",
+    "flux_density": "T",
+    "lifecycle": None,
+    "insulation": None,
 }
 
 ORIGIN_TEXT = {
@@ -92,7 +98,7 @@ TRACE_LABELS: tuple[tuple[str, str], ...] = (
 
 #: Statuses that are not findings' verdicts, shown after ``pass``: a BOM line not fitted, a stress
 #: that no rule limits.
-QUIET = ("not_fitted", "unlimited")
+QUIET = ("not_fitted",)
 
 
 def _rank(status: Any) -> int:
@@ -235,7 +241,7 @@ def _finding_key(finding: dict[str, Any]) -> tuple[Any, ...]:
 
 
 def sorted_findings(findings: list[dict[str, Any]]) -> list[dict[str, Any]]:
-    """Worst status first (fail, unmatched, not assessed, warn, waived, pass), then highest utilisation."""
+    """Worst status first (fail, unmatched, not assessed, warn, waived, info, pass), then highest utilisation."""
     return sorted((f for f in findings if isinstance(f, dict)), key=_finding_key)
 
 
@@ -558,6 +564,7 @@ def build_view(result: CheckResult) -> dict[str, Any]:
         "waivers": [waiver_view(w) for w in result.waivers if isinstance(w, dict)],
         "assumptions": [_text(a) for a in result.assumptions],
         "notes": [_text(n) for n in result.notes],
+        "bom_warnings": [_text(w) for w in getattr(result, "bom_warnings", []) or []],
         "trace": trace_view(result.trace if isinstance(result.trace, dict) else {}),
         "date": _text((result.trace or {}).get("date")) if isinstance(result.trace, dict) else "",
         "tool_version": _text((result.trace or {}).get("tool_version")) if isinstance(result.trace, dict) else "",

@@ -40,7 +40,7 @@ STATUS_FILL: dict[str, str] = {
     "not_assessed": "url(#pc-none)",
     "unmatched": "url(#pc-none)",
     "not_fitted": "url(#pc-none)",
-    "unlimited": "url(#pc-none)",
+    "info": "url(#pc-none)",
 }
 
 #: Status words and symbols: every status shows both, never colour alone.
@@ -52,7 +52,7 @@ STATUS_LABELS: dict[str, str] = {
     "waived": "WAIVED",
     "pass": "PASS",
     "not_fitted": "NOT FITTED",
-    "unlimited": "NO LIMIT",
+    "info": "INFO (NO LIMIT)",
 }
 STATUS_SYMBOLS: dict[str, str] = {
     "fail": "✖",
@@ -62,7 +62,7 @@ STATUS_SYMBOLS: dict[str, str] = {
     "waived": "◇",
     "pass": "✔",
     "not_fitted": "–",
-    "unlimited": "·",
+    "info": "·",
 }
 
 INK = "#1d2733"

@@ -39,7 +39,7 @@ VALUE_COLUMNS: Final[dict[str, str]] = {"capacitor": "capacitance", "resistor": 
 #: magnetics, ±1 % for resistors (common practice: the usual default grades).
 DEFAULT_TOLERANCE: Final[dict[str, float]] = {"capacitor": 0.20, "resistor": 0.01, "magnetic": 0.20}
 
-_OK: Final = ("pass", "warn", "unlimited")
+_OK: Final = ("pass", "warn", "info")
 
 
 @dataclass(frozen=True)
@@ -120,7 +120,7 @@ def rank_alternatives(failing_part: Any, candidates: Iterable[Any],
     Candidates in the failing part's package come first; parts in other packages are offered
     only when no same-package part passes.  Within a group the ranking is by the smallest
     margin over the candidate's findings, largest first (ties: part number).  A candidate whose
-    findings include anything but pass, warn or unlimited — or that yields no findings at all —
+    findings include anything but pass, warn or info — or that yields no findings at all —
     is dropped.
     """
     package = getattr(failing_part, "package", None)

@@ -16,9 +16,9 @@ Statuses
                   temperature where the rule derates with temperature.
 ``unmatched``     the BOM line matched no catalog part (made by the pipeline with
                   :func:`unmatched_finding`).
-``unlimited``     the policy has no rule for this category × parameter (or a life rule with no
-                  requirement to meet).  Reported as information, never as a pass claim, and it
-                  does not affect the verdict.
+``info``          the policy has no rule for this category × parameter (or a life rule with no
+                  requirement to meet).  The stress and its numbers are kept and shown, never as a
+                  pass claim; it does not affect the verdict.
 
 Utilisation is stress / limit, and limit / stress for ``capacitance`` and ``life`` (where a
 larger stress is better); margin is 1 − utilisation (DEVELOPERS.md, "Stress items and findings").
@@ -37,13 +37,17 @@ from ..units import format_quantity
 from .policy import LARGER_IS_BETTER, PARAMETERS, Policy, Rule
 from .waivers import Waiver, find_waivers
 
-STATUSES = ("pass", "warn", "fail", "waived", "not_assessed", "unmatched", "unlimited")
+STATUSES = ("pass", "warn", "fail", "waived", "not_assessed", "unmatched", "info")
+
+#: Parameters the tool names for the reviewer but never limits: a stress item for one of them is
+#: always ``not_assessed`` with its detail (a waiver may cover it, as for any not-assessed finding).
+OPEN_PARAMETERS = ("insulation",)
 
 #: Utilisation above 1 by less than this is rounding, not a failure.
 _EPS = 1e-12
 
 # order for picking a part's worst corner: higher is worse
-_SEVERITY = {"unlimited": 0, "pass": 1, "warn": 2, "not_assessed": 3, "fail": 4}
+_SEVERITY = {"info": 0, "pass": 1, "warn": 2, "not_assessed": 3, "fail": 4}
 
 
 @dataclass(frozen=True)
@@ -125,7 +129,7 @@ def evaluate(items: Iterable[StressItem], policy: Policy, *, waivers: Sequence[W
 
     With ``worst_only`` (the default) items of the same refs, part number, role and parameter
     (the corners of one stress) are reduced to the worst: the highest status (fail >
-    not_assessed > warn > pass > unlimited), then the highest utilisation.  Order follows the
+    not_assessed > warn > pass > info), then the highest utilisation.  Order follows the
     first appearance of each group.
     """
     groups: dict[tuple, Finding] = {}
@@ -147,6 +151,11 @@ def _worse(a: Finding, b: Finding) -> bool:
     sa, sb = _SEVERITY.get(a.status, 0), _SEVERITY.get(b.status, 0)
     if sa != sb:
         return sa > sb
+    if a.utilization is None and b.utilization is None and a.stress is not None and b.stress is not None:
+        # No limit (info): the worst corner is the largest stress (the smallest for capacitance, life).
+        if a.parameter in LARGER_IS_BETTER:
+            return a.stress < b.stress and not math.isclose(a.stress, b.stress, rel_tol=1e-9)
+        return a.stress > b.stress and not math.isclose(a.stress, b.stress, rel_tol=1e-9)
     ua = a.utilization if a.utilization is not None else math.inf
     ub = b.utilization if b.utilization is not None else math.inf
     # Equal within rounding (the same current limit reached at several tolerance settings): the
@@ -156,14 +165,23 @@ def _worse(a: Finding, b: Finding) -> bool:
 
 def assess(item: StressItem, policy: Policy) -> Finding:
     """The finding for one stress item (no waivers)."""
+    if item.parameter in OPEN_PARAMETERS:
+        return Finding(refs=tuple(item.refs), part_number=item.part_number, role=item.role, parameter=item.parameter,
+                       stress=None, rating=None, limit=None, utilization=None, margin=None, corner=item.corner,
+                       status="not_assessed", rule="none", source="", detail=item.detail, category=item.category)
     if item.parameter not in PARAMETERS:
         raise ValueError(f"unknown stress parameter {item.parameter!r}; expected one of {', '.join(PARAMETERS)}")
     rule = policy.rule_for(item.category, item.parameter, item.subtype, item.dielectric)
     base = dict(refs=tuple(item.refs), part_number=item.part_number, role=item.role, parameter=item.parameter,
                 stress=item.stress, rating=item.rating, corner=item.corner, unit=PARAMETERS[item.parameter],
                 category=item.category)
+    if rule is None and (item.stress is None or not math.isfinite(item.stress)):
+        # Nothing computed and nothing to compare with: still a stress the reviewer must know is open.
+        return Finding(**base, limit=None, utilization=None, margin=None, status="not_assessed", rule="none",
+                       source="", detail=_join(item.detail or f"no {item.parameter} stress was computed",
+                                               f"policy {policy.name!r} sets no {item.parameter} limit"))
     if rule is None:
-        return Finding(**base, limit=None, utilization=None, margin=None, status="unlimited", rule="none",
+        return Finding(**base, limit=None, utilization=None, margin=None, status="info", rule="none",
                        source="", detail=_join(item.detail, f"policy {policy.name!r} sets no {item.parameter} limit "
                                                f"for {item.category}" + (f"/{item.subtype}" if item.subtype else "")))
     base.update(rule=rule.id, source=rule.source, confidence=rule.confidence)
@@ -176,7 +194,7 @@ def assess(item: StressItem, policy: Policy) -> Finding:
         return Finding(**base, limit=None, utilization=None, margin=None, status="not_assessed",
                        detail=_join(item.detail, str(exc)))
     if limit is None:
-        return Finding(**base, limit=None, utilization=None, margin=None, status="unlimited",
+        return Finding(**base, limit=None, utilization=None, margin=None, status="info",
                        detail=_join(item.detail, why))
 
     kind = PARAMETERS[item.parameter]
@@ -242,8 +260,10 @@ def limit_for(rule: Rule, item: StressItem) -> tuple[float | None, str]:
             candidates.append(rule.min_fraction * need_rating())
         if rule.min is not None:
             candidates.append(rule.min)
-        if rule.design_requirement and item.required is not None:
-            candidates.append(item.required)
+        if rule.design_requirement:
+            required = rule.requirement(item.required)  # the design's figure, else the rule's default
+            if required is not None:
+                candidates.append(required)
         if not candidates:
             return None, f"the design states no required {rule.parameter}"
         return max(candidates), ""
@@ -359,7 +379,7 @@ def unmatched_finding(refs: Iterable[str], part_number: str = "", role: str = ""
 
 def verdict(findings: Iterable[Finding | dict], policy: Policy | None = None) -> str:
     """``"fail"`` when any finding fails, or is not_assessed/unmatched and the policy says those
-    fail the design (the default); ``"pass"`` otherwise (warn, waived, unlimited pass)."""
+    fail the design (the default); ``"pass"`` otherwise (warn, waived, info pass)."""
     fail_unassessed = policy.fail_unassessed if policy is not None else True
     fail_unmatched = policy.fail_unmatched if policy is not None else True
     for f in findings:
@@ -378,6 +398,7 @@ def _join(*texts: str) -> str:
 
 
 __all__ = [
+    "OPEN_PARAMETERS",
     "STATUSES",
     "Finding",
     "StressItem",

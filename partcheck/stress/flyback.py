@@ -430,22 +430,25 @@ def role_stresses(design, sol: dict[str, np.ndarray], i: int, voltage_only: bool
     return roles
 
 
-def _prepare(design):
+def _prepare(design, specs=None):
     from ..design import Design, load_design
     from . import corners as _corners
     from . import validity
 
     if not isinstance(design, Design):
         design = load_design(design)
-    specs = _corners.build_corners(design)
+    specs = _corners.build_corners(design) if specs is None else list(specs)
     op = _corners.operating_points(design, specs)
     sol = solve(op)
     keep, notes = validity.check(design, specs, op, sol)
     return design, specs, op, sol, keep, notes
 
 
-def evaluate(design) -> StressResult:
+def evaluate(design, specs=None) -> StressResult:
     """Solve every corner of ``design`` (a :class:`~partcheck.design.Design` or a path to one).
+
+    ``specs`` (a list of :class:`~partcheck.stress.corners.CornerSpec`) replaces the design's own
+    corners, for operating points such as a mission profile's.
 
     Raises
     ------
@@ -454,7 +457,7 @@ def evaluate(design) -> StressResult:
     """
     from .corners import SURGE
 
-    design, specs, op, sol, keep, notes = _prepare(design)
+    design, specs, op, sol, keep, notes = _prepare(design, specs)
     corners = []
     for i, spec in enumerate(specs):
         if not keep[i]:
@@ -472,9 +475,9 @@ def evaluate(design) -> StressResult:
     return result
 
 
-def corner_waveforms(design, corner_id: str) -> dict[str, PiecewiseLinear]:
+def corner_waveforms(design, corner_id: str, specs=None) -> dict[str, PiecewiseLinear]:
     """The waveforms of one corner (see :func:`waveforms_at`), keys with output names as in the roles."""
-    design, specs, op, sol, _keep, _notes = _prepare(design)
+    design, specs, op, sol, _keep, _notes = _prepare(design, specs)
     ids = [s.id for s in specs]
     if corner_id not in ids:
         raise KeyError(f"no corner {corner_id!r}; corners are {', '.join(ids)}")

@@ -405,6 +405,22 @@ def sense_resistor_power(i_rms: float, r: float) -> float:
     return i_rms * i_rms * r
 
 
+def gate_resistor_power(qg: float, vgs: float, fsw: float, r_gate: float, r_driver: float) -> float:
+    """Power in an external gate resistor [W]: its share of the gate-charge energy per cycle.
+
+    Charging and discharging the gate through Rg + Rdrv dissipates Qg·Vgs per cycle in the
+    resistances of the loop, divided in proportion to resistance: P = Qg·Vgs·fs·Rg/(Rg + Rdrv).
+
+    Parameters: qg total gate charge [C]; vgs drive voltage [V]; fsw [Hz]; r_gate, r_driver [Ω].
+
+    References: gate-drive energy balance, e.g. Balogh, "Fundamentals of MOSFET and IGBT gate
+    driver circuits", application report, 2002 (from memory); ``common practice``.
+    """
+    if r_gate < 0 or r_driver < 0 or r_gate + r_driver == 0:
+        raise ValueError("r_gate and r_driver must be ≥ 0 and not both zero")
+    return qg * vgs * fsw * r_gate / (r_gate + r_driver)
+
+
 def estimated_efficiency(p_out: float, losses: Mapping[str, float]) -> float:
     """Efficiency P_out/(P_out + Σ losses) from the modelled losses. [-]
 

@@ -177,8 +177,12 @@ def test_electrolytic_life_against_the_design_requirement():
                 subtype="aluminium_electrolytic", parameter="life", stress=32000.0, rating=2000.0)
     f = one(item(**base, required=60000.0))
     assert (f.limit, f.utilization, f.status, f.unit) == (60000.0, 1.875, "fail", "h")
-    none = one(item(**base))
-    assert (none.status, none.limit, none.rule) == ("unlimited", None, "electrolytic-life")
+    default = one(item(**base))  # the industrial preset's stated default requirement, 50 000 h
+    assert (default.status, default.limit, default.rule) == ("fail", 50000.0, "electrolytic-life")
+    bare = loads_policy('extends = "industrial"\n[rules.electrolytic-life]\ndesign_requirement = true\n'
+                        'source = "t"\nconfidence = "read"\n')
+    none = one(item(**base), bare)
+    assert (none.status, none.limit, none.rule) == ("info", None, "electrolytic-life")
     assert none.detail == "the design states no required life"
     policy = loads_policy('extends = "industrial"\n[rules.electrolytic-life]\nmin = "20000 h"\n'
                           'design_requirement = true\nsource = "t"\nconfidence = "read"\n')
@@ -205,9 +209,9 @@ def test_missing_rating_is_not_assessed():
     assert one(item(stress=None)).detail == "no voltage stress was computed"
 
 
-def test_a_stress_the_policy_does_not_limit_is_unlimited_not_pass():
+def test_a_stress_the_policy_does_not_limit_is_info_not_pass():
     f = one(item(category="magnetic", subtype="transformer", parameter="current_rms", stress=1.2, rating=None))
-    assert (f.status, f.rule, f.limit, f.utilization) == ("unlimited", "none", None, None)
+    assert (f.status, f.rule, f.limit, f.utilization) == ("info", "none", None, None)
     assert f.detail == "policy 'industrial' sets no current_rms limit for magnetic/transformer"
     assert verdict([f], INDUSTRIAL) == "pass"
 

@@ -111,7 +111,7 @@ GOOD = {"ref": "D1", "parameter": "voltage", "reason": "r", "approved_by": "a", 
     [
         ({"parameter": "volts"}, ("design.toml, key 'waiver[0].parameter': unknown parameter 'volts' (did you mean "
          "'voltage'?); expected one of voltage, current_rms, current_peak, current_avg, power, temperature, "
-         "ripple_current, capacitance, life, saturation, flux_density, lifecycle")),
+         "ripple_current, capacitance, life, saturation, flux_density, lifecycle, insulation")),
         ({"approved": "x"}, ("design.toml, key 'waiver[0].approved': unknown waiver key 'approved' (did you mean "
          "'approved_by'?); expected ref, parameter, reason, approved_by, date, expires")),
         ({"reason": None}, ("design.toml, key 'waiver[0].reason': a waiver needs 'reason' (ref, parameter, reason, "
