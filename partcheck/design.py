@@ -45,7 +45,7 @@ DEFAULT_MISSION_TEXT = (
 #: Roles a reference may be mapped to in ``[roles]`` (optionally ``"role:<output name>"``).
 KNOWN_ROLES: tuple[str, ...] = (
     "switch", "rectifier", "clamp", "clamp_diode", "input_cap", "output_cap", "current_sense",
-    "feedback_divider", "optocoupler", "shunt_reference", "transformer", "snubber",
+    "feedback_divider", "optocoupler", "shunt_reference", "transformer", "gate_resistor", "snubber",
 )
 
 _REF_RE = re.compile(r"^[A-Za-z][A-Za-z0-9_.\-+]*$")

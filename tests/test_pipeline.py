@@ -44,10 +44,14 @@ def _failing(result: CheckResult) -> set[tuple[str, str]]:
 def test_remote_io_passes(catalog):
     result = _run("remote_io_24v", catalog)
     assert result.verdict == "pass"
-    assert [f for f in result.findings if f["status"] not in ("pass", "warn")] == []
+    # Stresses no rule limits are shown as info; the transformer's insulation, which partcheck never
+    # assesses, is waived in the design file with who reviewed it.
+    assert [f for f in result.findings if f["status"] not in ("pass", "warn", "info")] == [
+        f for f in result.findings if f["refs"] == ["T1"] and f["parameter"] == "insulation"]
+    assert all(f["status"] == "waived" for f in result.findings if f["parameter"] == "insulation")
     # every fitted BOM line was matched and is covered by a finding
     fitted = [p for p in result.parts if p["status"] != "not_fitted"]
-    assert fitted and all(p["status"] in ("pass", "warn") for p in fitted)
+    assert fitted and all(p["status"] in ("pass", "warn", "info", "waived") for p in fitted)
 
 
 def test_battery_monitor_fails_for_the_three_intended_reasons(catalog):
@@ -58,6 +62,9 @@ def test_battery_monitor_fails_for_the_three_intended_reasons(catalog):
         ("C10", "ripple_current"),  # general-purpose electrolytic beyond its ripple rating at 200 kHz, 60 °C
         ("C11", "voltage"),  # 25 V X7R on 15 V against the scenario's 50 % rule
         ("C11", "capacitance"),  # ... and it keeps less than half its capacitance at that bias
+        # 2000 h / 105 °C part, hot spot 76 °C at full load and 60 °C all the time (the stated default
+        # mission): 2000·2^(29/10) ≈ 15 000 h against the industrial default requirement of 50 000 h
+        ("C10", "life"),
     }
     parts = {p.part_number: p for p in catalog.parts()}
     for f in result.findings:
