@@ -67,6 +67,7 @@ UNIT_ALIASES: Final[dict[str, tuple[str, ...]]] = {
     "K/W": ("K/W", "°C/W", "degC/W", "C/W"),
     "%": ("%",),
     "T": ("T", "tesla"),
+    "J": ("J", "joule"),
     "C": ("C",),  # electric charge (gate charge, recovered charge); "C" alone is °C where a temperature is expected
 }
 
@@ -87,6 +88,7 @@ KIND_NAMES: Final[dict[str | None, str]] = {
     "%": "a percentage (%)",
     "C": "a charge (C)",
     "T": "a flux density (T)",
+    "J": "an energy (J)",
     None: "a plain number",
 }
 
