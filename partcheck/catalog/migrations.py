@@ -17,6 +17,13 @@ Versions:
 2. ``part.updated_at``: when each part was last written (UTC, ISO 8601), set by every add,
    import and update; NULL for parts written before version 2 (their time is unknown).  It is
    provenance of this catalog, not a property of the part, so exports leave it out.
+3. the exchange columns ``part.i_frm`` (diodes: repetitive peak forward current) and
+   ``part.b_sat`` (magnetics: saturation flux density at 100 °C), NULL for existing parts; and
+   ``part.part_number_key`` (:func:`partcheck.catalog.models.part_number_key` of the part number,
+   filled for every existing part here, with the non-unique index ``ix_part_part_number_key``), so
+   imports find part numbers that differ only in letter case or Unicode form.  The index is not
+   unique because a catalog written before version 3 may already hold such twins: the upgrade
+   keeps them, imports refuse new ones.  Provenance like ``updated_at``, not exported.
 
 Before an existing catalog is upgraded the store takes a backup (see :func:`backup_tables` and
 ``Catalog._upgrade``).
@@ -40,6 +47,7 @@ from sqlalchemy import (
     String,
     Table,
     UniqueConstraint,
+    bindparam,
     insert,
     inspect,
     select,
@@ -49,7 +57,7 @@ from sqlalchemy import (
 
 from .. import __version__
 from ..errors import CatalogError
-from .models import CatalogMeta, CatalogMigration, CurvePoint, Part
+from .models import CatalogMeta, CatalogMigration, CurvePoint, Part, part_number_key
 
 META = CatalogMeta.__table__
 MIGRATION = CatalogMigration.__table__
@@ -112,9 +120,34 @@ def _v2_part_updated_at(conn: Connection) -> None:
     _add_column(conn, "part", Column("updated_at", String(32)))
 
 
+#: Rows per batch when version 3 fills ``part_number_key`` for the existing parts.
+V3_BATCH: Final = 5000
+
+
+def _v3_columns_and_part_number_key(conn: Connection) -> None:
+    for name in ("i_frm", "b_sat"):
+        _add_column(conn, "part", Column(name, Float))
+    _add_column(conn, "part", Column("part_number_key", String))
+    # The part table as far as this step needs it (frozen here, not the live model).
+    part = Table("part", MetaData(), Column("id", Integer, primary_key=True), Column("part_number", String),
+                 Column("part_number_key", String))
+    fill = update(part).where(part.c.id == bindparam("pid")).values(part_number_key=bindparam("key"))
+    last = None
+    while True:  # in id order, one batch at a time: memory does not grow with the catalog
+        query = select(part.c.id, part.c.part_number).order_by(part.c.id).limit(V3_BATCH)
+        rows = conn.execute(query if last is None else query.where(part.c.id > last)).all()
+        if not rows:
+            break
+        conn.execute(fill, [{"pid": pid, "key": part_number_key(pn)} for pid, pn in rows])
+        last = rows[-1][0]
+    Index("ix_part_part_number_key", part.c.part_number_key).create(conn)
+
+
 MIGRATIONS: Final[tuple[Migration, ...]] = (
     Migration(1, "create the part, curve_point, catalog_meta and catalog_migration tables", _v1_create_tables),
     Migration(2, "add part.updated_at (when each part was last written, UTC)", _v2_part_updated_at),
+    Migration(3, "add part.i_frm, part.b_sat and part.part_number_key (normalised part number, indexed)",
+              _v3_columns_and_part_number_key),
 )
 
 #: The schema version this code reads and writes.

@@ -6,8 +6,8 @@ Three layers, one source of truth:
   one-line doc).  It drives import validation, the export column order and the docs.
 * :class:`Part`, :class:`CurvePoint`, :class:`CatalogMeta`, :class:`CatalogMigration` — the
   SQLModel tables.  ``Part`` is one wide table (a column per exchange column, NULL when empty,
-  plus the provenance column ``updated_at``); a test checks that its columns are exactly
-  :data:`FIELDS` and ``updated_at``.
+  plus the provenance columns ``updated_at`` and ``part_number_key``); a test checks that its
+  columns are exactly :data:`FIELDS`, ``updated_at`` and ``part_number_key``.
 * :class:`PartRecord` — the plain, frozen view of one part that every other module receives.
 
 Values are SI floats (°C for temperatures, hours for life, fractions for percentages).
@@ -15,6 +15,7 @@ Values are SI floats (°C for temperatures, hours for life, fractions for percen
 
 from __future__ import annotations
 
+import unicodedata
 from dataclasses import dataclass, field
 from dataclasses import fields as dc_fields
 from typing import Final
@@ -42,6 +43,17 @@ STATUSES: Final = ("approved", "restricted", "obsolete")
 DIELECTRICS: Final = ("C0G", "X7R", "X5R", "X7S", "X6S", "Y5V")
 
 _ALL: Final = tuple(CATEGORIES)
+
+
+def part_number_key(part_number: str) -> str:
+    """The normalised form under which two spellings are one part number.
+
+    NFKC then case folding: part numbers that differ only in letter case or Unicode form
+    (composed or decomposed accents, the micro sign U+00B5 and the Greek mu U+03BC, full-width
+    forms) have the same key.  Stored in ``part.part_number_key`` (schema version 3); a change
+    here needs a migration that recomputes the stored keys.
+    """
+    return unicodedata.normalize("NFKC", part_number).casefold()
 
 
 @dataclass(frozen=True)
@@ -104,7 +116,8 @@ _FIELD_LIST: Final[tuple[FieldSpec, ...]] = (
     # diode
     _rating("vrrm", "V", ("diode",), "repetitive peak reverse voltage [V]"),
     _rating("if_avg", "A", ("diode",), "average forward current rating [A]"),
-    _rating("ifsm", "A", ("diode",), "non-repetitive surge forward current [A]"),
+    _rating("ifsm", "A", ("diode",), "non-repetitive surge forward current (inrush, start-up) [A]"),
+    _rating("i_frm", "A", ("diode",), "repetitive peak forward current rating [A]"),
     _rating("vf", "V", ("diode",), "forward voltage at vf_current [V]"),
     _rating("vf_current", "A", ("diode",), "current at which vf is given [A]"),
     _rating("trr", "s", ("diode",), "reverse recovery time [s]"),
@@ -139,6 +152,9 @@ _FIELD_LIST: Final[tuple[FieldSpec, ...]] = (
     _rating("turns_ratio", None, ("magnetic",), "Np/Ns of the first secondary [-]"),
     _rating("llk", "H", ("magnetic",), "leakage inductance referred to the primary [H]"),
     _rating("isat", "A", ("magnetic",), "saturation current [A]"),
+    _rating("b_sat", "T", ("magnetic",),
+            "saturation flux density of the core at its hot temperature (datasheet value at 100 °C) [T]",
+            maximum=3.0),
     _rating("dcr_pri", "ohm", ("magnetic",), "primary winding DC resistance [Ω]"),
     _rating("dcr_sec", "ohm", ("magnetic",), "secondary winding DC resistance [Ω]"),
     _rating("v_isolation", "V", ("magnetic", "optocoupler"), "isolation test voltage [V]"),
@@ -238,6 +254,7 @@ class Part(SQLModel, table=True):
     vrrm: float | None = None
     if_avg: float | None = None
     ifsm: float | None = None
+    i_frm: float | None = None
     vf: float | None = None
     vf_current: float | None = None
     trr: float | None = None
@@ -268,6 +285,7 @@ class Part(SQLModel, table=True):
     turns_ratio: float | None = None
     llk: float | None = None
     isat: float | None = None
+    b_sat: float | None = None
     dcr_pri: float | None = None
     dcr_sec: float | None = None
     v_isolation: float | None = None
@@ -286,6 +304,10 @@ class Part(SQLModel, table=True):
     #: Provenance, not an exchange column (schema version 2): when the part was last written,
     #: UTC ISO 8601; NULL for parts written before version 2.  Not exported.
     updated_at: str | None = Field(default=None, max_length=32)
+    #: Provenance, not an exchange column (schema version 3): :func:`part_number_key` of
+    #: ``part_number``, so that imports find part-number twins by an indexed lookup.  The index
+    #: is not unique: a catalog written before version 3 may hold twins.  Not exported.
+    part_number_key: str | None = Field(default=None, index=True)
 
 
 class CurvePoint(SQLModel, table=True):
@@ -353,6 +375,7 @@ class PartRecord:
     vrrm: float | None = None
     if_avg: float | None = None
     ifsm: float | None = None
+    i_frm: float | None = None
     vf: float | None = None
     vf_current: float | None = None
     trr: float | None = None
@@ -383,6 +406,7 @@ class PartRecord:
     turns_ratio: float | None = None
     llk: float | None = None
     isat: float | None = None
+    b_sat: float | None = None
     dcr_pri: float | None = None
     dcr_sec: float | None = None
     v_isolation: float | None = None

@@ -45,7 +45,7 @@ from ..errors import CatalogError, CatalogInputError, NotFoundError
 from . import io as cio
 from . import validate as cval
 from .migrations import CURRENT_VERSION, backup_tables, check_version, migrate, schema_version
-from .models import CATEGORIES, CATEGORY_FIELDS, FIELDS, Curve, CurvePoint, Part, PartRecord
+from .models import CATEGORIES, CATEGORY_FIELDS, FIELDS, Curve, CurvePoint, Part, PartRecord, part_number_key
 
 PART = Part.__table__
 POINT = CurvePoint.__table__
@@ -401,11 +401,40 @@ class Catalog:
                 return dict(conn.execute(select(PART.c.part_number, PART.c.id)).all())
             return self._ids(conn, part_numbers)
 
+    def _stored(self, part_numbers: set[str]) -> tuple[dict[str, int], dict[str, list[str]]]:
+        """What the catalog holds of ``part_numbers``: ``({part_number: id}, {key: [stored spellings]})``
+        (see :meth:`_lookup`), in a read transaction of its own."""
+        with self._conn(write=False) as conn:
+            return self._lookup(conn, part_numbers)
+
+    @staticmethod
+    def _lookup(conn, part_numbers: set[str], per_query: int = 500) -> tuple[dict[str, int], dict[str, list[str]]]:
+        """``{part_number: id}`` of the stored parts among ``part_numbers``, and ``{key: [spellings]}`` of the
+        stored parts whose :func:`part_number_key` is the key of one of them (twins included), by the
+        indexed ``part_number`` and ``part_number_key`` columns, ``per_query`` part numbers at a time."""
+        numbers = sorted(part_numbers)
+        ids: dict[str, int] = {}
+        spellings: dict[str, list[str]] = defaultdict(list)
+        for start in range(0, len(numbers), per_query):
+            some = numbers[start:start + per_query]
+            keys = sorted({part_number_key(pn) for pn in some})
+            rows = conn.execute(select(PART.c.part_number, PART.c.id, PART.c.part_number_key)
+                                .where(PART.c.part_number.in_(some) | PART.c.part_number_key.in_(keys))).all()
+            for pn, _pid, key in rows:
+                if pn not in spellings[key]:
+                    spellings[key].append(pn)
+            ids.update((pn, pid) for pn, pid, _ in rows if pn in part_numbers)
+        return ids, dict(spellings)
+
+    def _validate(self, table: cval.Table, curve_table: cval.Table | None, *, update: bool,
+                  verb: str = "imported") -> cval.Validated:
+        existing, twins = self._stored(_part_numbers(table))
+        return cval.validate(table, curve_table, existing=existing, twins=twins, update=update, verb=verb)
+
     def add(self, fields: dict[str, str | float], *, update: bool = False) -> PartRecord:
         """Add one part from column values (text with units, or SI numbers); returns it as stored."""
         table = cval.Table("", list(fields), [list(fields.values())], [None], None)
-        validated = cval.validate(table, None, existing=self._existing(_part_numbers(table)), update=update,
-                                  verb="added")
+        validated = self._validate(table, None, update=update, verb="added")
         self._write(validated, update=update)
         return self.get(str(validated.columns["part_number"][0]))
 
@@ -430,8 +459,7 @@ class Catalog:
         first = next(chunks)
         if next(chunks, None) is None:
             curve_table = cio.read_curve_table(path)
-            validated = cval.validate(first, curve_table, existing=self._existing(_part_numbers(first)),
-                                      update=update)
+            validated = self._validate(first, curve_table, update=update)
             report = self._write(validated, update=update, method=method)
             if progress:
                 progress(len(first.rows), len(first.rows))
@@ -446,15 +474,18 @@ class Catalog:
         stamp = _now()
         problems: list[cval.Problem] = []
         seen: dict[str, int | None] = {}
+        seen_keys: dict[str, str] = {}
         category: dict[str, str | None] = {}
         replaced: list[int] = []  # ids of updated parts whose curves the curve file replaces
         with_curves = _part_numbers(curve_table) if curve_table is not None else set()  # categories kept for these
         added = updated = done = points = 0
         with self._conn(write=True) as conn:
             for table in cio.iter_tables(path, IMPORT_CHUNK):
-                existing = self._ids(conn, _part_numbers(table))  # only this chunk's: memory stays bounded
+                # only this chunk's part numbers and their twins: memory stays bounded
+                existing, twins = self._lookup(conn, _part_numbers(table))
                 try:
-                    v = cval.validate(table, None, existing=existing, update=update, seen=seen)
+                    v = cval.validate(table, None, existing=existing, update=update, seen=seen, twins=twins,
+                                      seen_keys=seen_keys)
                 except CatalogInputError as exc:
                     found = getattr(exc, "problems", None)
                     if not found or any(p.line == table.header_line and p.file is None for p in found):
@@ -467,7 +498,7 @@ class Catalog:
                                         if pn in with_curves)
                     if not problems:  # once anything is wrong, only validate (the write is rolled back)
                         a, u, _ = self._write_rows(conn, v, update=update, method=method, stamp=stamp,
-                                                   existing=existing)
+                                                   existing=existing, twins=twins)
                         added, updated = added + a, updated + u
                         if curve_table is not None and u:
                             replaced.extend(existing[pn] for pn in v.columns["part_number"] if pn in existing)
@@ -498,20 +529,28 @@ class Catalog:
 
     def _write_once(self, v: cval.Validated, *, update: bool, method: str = "bulk") -> ImportReport:
         with self._conn(write=True) as conn:
-            existing = self._ids(conn, {pn for pn in v.columns["part_number"] if pn is not None})
+            existing, twins = self._lookup(conn, {pn for pn in v.columns["part_number"] if pn is not None})
             added, updated, points = self._write_rows(conn, v, update=update, method=method, stamp=_now(),
-                                                      existing=existing)
+                                                      existing=existing, twins=twins)
         return ImportReport(v.file, added, updated, points, v.curves_file, method)
 
     def _write_rows(self, conn, v: cval.Validated, *, update: bool, method: str, stamp: str,
-                    existing: dict[str, int]) -> tuple[int, int, int]:
-        """Insert/update the rows of ``v`` (and its curves, if given) on ``conn``; (added, updated, points)."""
+                    existing: dict[str, int], twins: dict[str, list[str]]) -> tuple[int, int, int]:
+        """Insert/update the rows of ``v`` (and its curves, if given) on ``conn``; (added, updated, points).
+
+        ``existing`` and ``twins`` are :meth:`_lookup` of the rows' part numbers on ``conn``."""
         pns = v.columns["part_number"]
         new = [i for i, pn in enumerate(pns) if pn not in existing]
         old = [i for i, pn in enumerate(pns) if pn in existing]
         if old and not update:  # appeared since validation: another writer was faster
             raise _failure(f"{v.file or self.location}: part {pns[old[0]]!r} was added to the catalog by "
                            "someone else during this import; nothing was written, try again")
+        for i in new if twins else ():  # a twin that appeared since validation: another writer was faster
+            others = [s for s in twins.get(part_number_key(pns[i]), ()) if s != pns[i]]
+            if others:
+                raise _failure(f"{v.file or self.location}: part {cval.shown(pns[i])} was added to the catalog by "
+                               f"someone else as {cval.shown(others[0])} during this import {cval._TWIN}; "
+                               "nothing was written")
         if method == "orm":
             self._insert_orm(conn, v.records(new), stamp)
         else:
@@ -546,14 +585,16 @@ class Catalog:
             else:
                 take = itemgetter(*group) if len(group) > 1 else (lambda col, i=group[0]: (col[i],))
                 picked = [take(v.columns[c]) for c in cols]
-            _executemany(conn, PART, (*cols, "updated_at"), list(zip(*picked, repeat(stamp))))
+            # cols[0] is part_number: its key goes in beside it
+            _executemany(conn, PART, (*cols, "updated_at", "part_number_key"),
+                         list(zip(*picked, repeat(stamp), map(part_number_key, picked[0]))))
 
     @staticmethod
     def _insert_orm(conn, records: list[dict], stamp: str) -> None:
         # Row by row through the ORM (one INSERT per part): the slow path the benchmark compares with.
         session = Session(bind=conn)
         for r in records:
-            session.add(Part(**r, updated_at=stamp))
+            session.add(Part(**r, updated_at=stamp, part_number_key=part_number_key(r["part_number"])))
             session.flush()
         session.close()
 
@@ -561,12 +602,20 @@ class Catalog:
     def _update_bulk(conn, records: list[dict], stamp: str) -> None:
         names = [n for n in FIELDS if n != "part_number"]
         stmt = (update(PART).where(PART.c.part_number == bindparam("k_part_number"))
-                .values({**{n: bindparam(f"k_{n}") for n in names}, "updated_at": bindparam("k_updated_at")}))
-        conn.execute(stmt, [{**{f"k_{n}": r[n] for n in FIELDS}, "k_updated_at": stamp} for r in records])
+                .values({**{n: bindparam(f"k_{n}") for n in names}, "updated_at": bindparam("k_updated_at"),
+                         "part_number_key": bindparam("k_part_number_key")}))
+        conn.execute(stmt, [{**{f"k_{n}": r[n] for n in FIELDS}, "k_updated_at": stamp,
+                             "k_part_number_key": part_number_key(r["part_number"])} for r in records])
 
     def remove(self, part_number: str) -> PartRecord:
-        """Remove a part and its curves; returns what was removed.  NotFoundError when absent."""
-        record = self.get(part_number)
+        """Remove a part and its curves; returns what was removed.  NotFoundError when absent.
+
+        Only the exact spelling removes a part (no twin lookup as in :meth:`get`)."""
+        with self._conn(write=False) as conn:
+            found = self._records(conn, [PART.c.part_number == part_number])
+        if not found:
+            raise self._not_found(part_number)
+        record = found[0]
 
         def step() -> None:
             with self._conn(write=True) as conn:
@@ -610,9 +659,12 @@ class Catalog:
         return out
 
     def updated_at(self, part_number: str) -> str | None:
-        """When the part was last written (UTC, ISO 8601); None when written before schema version 2."""
+        """When the part was last written (UTC, ISO 8601); None when written before schema version 2.
+
+        The part is found as by :meth:`get` (the exact spelling, else its one twin)."""
         with self._conn(write=False) as conn:
-            found = conn.execute(select(PART.c.id, PART.c.updated_at).where(PART.c.part_number == part_number)).first()
+            found = conn.execute(select(PART.c.id, PART.c.updated_at)
+                                 .where(*self._where_number(conn, part_number))).first()
         if found is None:
             raise self._not_found(part_number)
         return found[1]
@@ -700,10 +752,25 @@ class Catalog:
         hint = f" (closest: {', '.join(near)})" if near else ""
         return NotFoundError(f"part {part_number!r} is not in the catalog{hint}; add it with `partcheck catalog add`")
 
+    @staticmethod
+    def _where_number(conn, part_number: str) -> list:
+        """The condition that picks the part ``part_number``: the exact spelling when stored, else the one
+        stored twin (same :func:`part_number_key`, by its index); matches nothing when there are several."""
+        exact = PART.c.part_number == part_number
+        if conn.execute(select(PART.c.id).where(exact)).first() is not None:
+            return [exact]
+        ids = conn.execute(select(PART.c.id).where(PART.c.part_number_key == part_number_key(part_number))
+                           .limit(2)).scalars().all()
+        return [PART.c.id == ids[0]] if len(ids) == 1 else [exact]
+
     def get(self, part_number: str) -> PartRecord:
-        """One part by its exact part number; NotFoundError naming the closest ones when absent."""
+        """One part by its part number; NotFoundError naming the closest ones when absent.
+
+        The exact spelling wins; without it, a spelling that differs only in letter case or
+        Unicode form finds the part when exactly one stored part has that spelling's key.
+        """
         with self._conn(write=False) as conn:
-            found = self._records(conn, [PART.c.part_number == part_number])
+            found = self._records(conn, self._where_number(conn, part_number))
         if not found:
             raise self._not_found(part_number)
         return found[0]
@@ -814,7 +881,7 @@ class Catalog:
         return out
 
     def _receive(self, source: Catalog, replace: bool, progress) -> CopyReport:
-        cols = (*FIELDS, "updated_at")
+        cols = (*FIELDS, "updated_at", "part_number_key")
         with self._conn(write=True) as conn, source._conn(write=False) as sconn:
             have = int(conn.execute(select(func.count()).select_from(PART)).scalar() or 0)
             if have and not replace:

@@ -18,7 +18,7 @@ from itertools import compress
 
 from ..errors import CatalogInputError, QuantityError
 from ..units import format_quantity, parse_quantity
-from .models import CATEGORIES, CURVE_COLUMNS, CURVES, DIELECTRICS, FIELDS, STATUSES, Curve
+from .models import CATEGORIES, CURVE_COLUMNS, CURVES, DIELECTRICS, FIELDS, STATUSES, Curve, part_number_key
 
 #: How many problems an error message lists before "... and N more".
 MAX_LISTED = 20
@@ -192,14 +192,30 @@ def _where(table: Table, i: int) -> tuple[int | None, str | None]:
     return table.lines[i], (table.keys[i] if table.keys else None)
 
 
+_TWIN = "(differs only in letter case or Unicode form)"
+
+
+def shown(part_number: str) -> str:
+    """A part number quoted for a twin message: ``repr``, escaped (``ascii``) when not plain ASCII,
+    so that spellings which look alike (composed and decomposed accents, µ and μ) read differently."""
+    return repr(part_number) if part_number.isascii() else ascii(part_number)
+
+
 def validate(table: Table, curve_table: Table | None = None, *, existing: Iterable[str] = (),
-             update: bool = False, verb: str = "imported", seen: dict[str, int | None] | None = None) -> Validated:
+             update: bool = False, verb: str = "imported", seen: dict[str, int | None] | None = None,
+             twins: dict[str, list[str]] | None = None, seen_keys: dict[str, str] | None = None) -> Validated:
     """Validate every cell of ``table`` (and its curves); raise one error listing every problem.
 
     ``existing`` are the part numbers already in the catalog: each of them in ``table`` is a
     problem unless ``update`` is true.  ``seen`` maps the part numbers of earlier chunks of the
     same file to their lines (a chunked import passes one dict through every chunk, so a part
     number repeated across chunks is found); it is updated with this table's part numbers.
+
+    Part numbers with the same :func:`~partcheck.catalog.models.part_number_key` but another
+    spelling are twins, always a problem: two rows of the file (``seen_keys`` maps the keys of
+    earlier chunks to their first spelling, updated like ``seen``), or a row and a stored part
+    (``twins`` maps keys to the stored spellings; only the keys of this table's part numbers are
+    needed).  Re-importing the stored spelling itself is the ``existing`` rule above.
     """
     existing = existing if isinstance(existing, (set, frozenset, dict)) else set(existing)
     problems: list[Problem] = []
@@ -255,6 +271,9 @@ def validate(table: Table, curve_table: Table | None = None, *, existing: Iterab
 
     pns: list[str | None] = [None] * n
     first_line: dict[str, int | None] = {} if seen is None else seen
+    first_spelling: dict[str, str] = {} if seen_keys is None else seen_keys
+    stored = twins or {}
+    first_index: dict[str, int] = {}  # this table's rows, to name a JSON row by its key
     for i, cell in enumerate(columns["part_number"]):
         if _is_empty(cell):
             line, key = _where(table, i)
@@ -273,12 +292,32 @@ def validate(table: Table, curve_table: Table | None = None, *, existing: Iterab
             line, key = _where(table, i)
             where = f"line {first_line[pn]}" if first_line[pn] is not None else "earlier"
             problems.append(Problem(f"part number {pn!r} appears twice (first on {where})", line, "part_number", key))
-        else:
-            first_line[pn] = table.lines[i]
-            if pn in existing and not update:
+            pns[i] = pn
+            continue
+        first_line[pn] = table.lines[i]
+        first_index[pn] = i
+        norm = part_number_key(pn)
+        other = first_spelling.setdefault(norm, pn)
+        if other != pn:
+            line, key = _where(table, i)
+            if first_line.get(other) is not None:
+                where = f"on line {first_line[other]}"
+            elif table.keys and other in first_index:
+                where = f"in {table.keys[first_index[other]]}"
+            else:
+                where = "earlier"
+            problems.append(Problem(f"part number {shown(pn)} is the same part number as {shown(other)} {where} "
+                                    f"{_TWIN}", line, "part_number", key))
+        elif pn in existing:
+            if not update:
                 line, key = _where(table, i)
                 problems.append(Problem(f"part number {pn!r} is already in the catalog; "
                                         "import with --update to replace it", line, "part_number", key))
+        elif norm in stored:
+            line, key = _where(table, i)
+            names = " and ".join(shown(s) for s in sorted(stored[norm]))
+            problems.append(Problem(f"part number {shown(pn)} is the same part number as the stored {names} {_TWIN}",
+                                    line, "part_number", key))
         pns[i] = pn
     out["part_number"] = pns
 

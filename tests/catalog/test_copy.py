@@ -45,7 +45,7 @@ def test_sqlite_to_postgresql_and_back_is_byte_identical(tmp_path, postgres_serv
         report = cat.copy_to(postgres_url)
     assert (report.parts, report.curve_points) == (n, points) and points > 100
     assert str(report) == (f"copied {n} parts, {points} curve points from {source} to {postgres_url} "
-                           f"(schema version 2); exports identical ({report.export_bytes} bytes of JSON)")
+                           f"(schema version 3); exports identical ({report.export_bytes} bytes of JSON)")
     assert report.export_bytes == len(first["parts.json"])
     with open_catalog(postgres_url) as team:
         with team._engine.connect() as conn:  # the database's own order differs from code-point order
@@ -106,7 +106,7 @@ def test_copy_command(tmp_path, catalog_url):
     assert cli("import", str(SMALL), db=src).exit_code == 0
     result = cli("copy", "--to", catalog_url, db=src)
     assert result.exit_code == 0, result.output
-    assert result.stdout.startswith(f"copied 12 parts, 8 curve points from {src} to {catalog_url} (schema version 2)"
+    assert result.stdout.startswith(f"copied 12 parts, 8 curve points from {src} to {catalog_url} (schema version 3)"
                                     "; exports identical (")
     assert result.stderr == ""  # no progress bar when standard error is not a terminal
     exported = [cli("export", "-", "--format", "json", db=where).stdout for where in (src, catalog_url)]

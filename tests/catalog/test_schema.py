@@ -20,24 +20,27 @@ from .conftest import engine_for, execute
 
 def test_tables_indexes_and_version_are_stored(catalog_url):
     with open_catalog(catalog_url) as cat:
-        assert cat.schema_version == CURRENT_VERSION == 2
+        assert cat.schema_version == CURRENT_VERSION == 3
     engine = engine_for(catalog_url)
     try:
         with engine.connect() as conn:
             look = inspect(conn)
             assert {"part", "curve_point", "catalog_meta", "catalog_migration"} <= set(look.get_table_names())
-            assert conn.exec_driver_sql("select value from catalog_meta where key='schema_version'").all() == [("2",)]
+            assert conn.exec_driver_sql("select value from catalog_meta where key='schema_version'").all() == [("3",)]
             assert conn.exec_driver_sql("select version, name from catalog_migration order by version").all() == [
                 (m.version, m.name) for m in MIGRATIONS]
             indexes = {i["name"]: (tuple(i["column_names"]), bool(i["unique"])) for i in look.get_indexes("part")}
             assert indexes["ix_part_part_number"] == (("part_number",), True)
             assert indexes["ix_part_category"] == (("category",), False)
             assert indexes["ix_part_subtype"] == (("subtype",), False)
+            assert indexes["ix_part_part_number_key"] == (("part_number_key",), False)  # not unique: see DEVELOPERS.md
             fks = look.get_foreign_keys("curve_point")
             assert [(f["referred_table"], f["constrained_columns"], f["referred_columns"],
                      f["options"].get("ondelete")) for f in fks] == [("part", ["part_id"], ["id"], "CASCADE")]
             columns = [c["name"] for c in look.get_columns("part")]
-            assert columns == ["id", *FIELDS, "updated_at"]  # the version-2 column comes last, as ALTER TABLE adds it
+            # the columns of later versions come last, in the order their migrations' ALTER TABLE added them
+            v3 = ("i_frm", "b_sat")
+            assert columns == ["id", *(f for f in FIELDS if f not in v3), "updated_at", *v3, "part_number_key"]
     finally:
         engine.dispose()
 
@@ -73,7 +76,7 @@ def test_unreachable_server_is_a_clean_error_with_the_password_masked():
 
 def test_part_table_record_and_registry_agree():
     columns = [c.name for c in Part.__table__.columns if c.name != "id"]
-    assert columns == [*FIELDS, "updated_at"]  # updated_at is provenance, not an exchange column
+    assert columns == [*FIELDS, "updated_at", "part_number_key"]  # provenance, not exchange columns
     assert [f.name for f in dataclasses.fields(PartRecord)] == [*FIELDS, "curves"]
     for name, spec in FIELDS.items():
         sa_type = Part.__table__.c[name].type

@@ -17,6 +17,12 @@ def test_seed_imports_cleanly_and_covers_every_subtype(tmp_path):
         assert present >= {(c, s) for c, subs in CATEGORIES.items() for s in subs}
         assert {name for p in parts for name in p.curves} == set(CURVES)
         assert all(p.status in ("approved", "restricted", "obsolete") for p in parts)
+        # schema version 3 columns (invented values, see db/README.md)
+        diodes = [p for p in parts if p.category == "diode"]
+        assert diodes and all(p.if_avg < p.i_frm < p.ifsm for p in diodes)
+        transformers = [p for p in parts if p.subtype == "transformer"]
+        assert transformers and all(0.35 <= p.b_sat <= 0.40 for p in transformers)
+        assert all(p.b_sat is None for p in parts if p.subtype == "inductor")
         hash_first = cat.snapshot_hash()
         text = io.StringIO()
         cat.export(text, "json")
