@@ -93,6 +93,8 @@ class Output:
     cout: float | None  # bank capacitance [F]
     esr: float | None  # bank ESR [Ω]
     dcr: float | None  # winding DC resistance [Ω]
+    leakage: float | None = None  # secondary leakage inductance, for the rectifier ring [H]
+    winding_capacitance: float | None = None  # secondary winding capacitance across the rectifier [F]
 
 
 @dataclass(frozen=True)
@@ -136,6 +138,16 @@ class ExtraStress:
 
 
 @dataclass(frozen=True)
+class Measured:
+    """One ``[[measured]]``: a bench-measured stress that replaces the model's for one reference."""
+
+    ref: str
+    parameter: str  # voltage, current_peak, current_rms, temperature, power
+    value: float  # SI (°C for temperatures)
+    note: str = ""
+
+
+@dataclass(frozen=True)
 class MissionPoint:
     """One ``[[mission]]`` point: a share of the operating time at one load, ambient and input."""
 
@@ -168,6 +180,7 @@ class Design:
     waivers: tuple[dict[str, Any], ...] = ()
     feedback: dict[str, float | str] = field(default_factory=dict)
     mission: tuple[MissionPoint, ...] = ()  # empty when the file has no [[mission]]
+    measured: tuple[Measured, ...] = ()  # bench figures that replace the model's
     raw: dict[str, Any] = field(default_factory=dict)
 
     @property
@@ -292,7 +305,7 @@ def _unknown(key: str, allowed: tuple[str, ...]) -> str:
 
 _TOP = ("name", "bom", "policy", "converter", "input", "output", "transformer", "clamp", "environment",
         "switch_node", "roles", "pins", "extra_stress", "tolerances", "requirements", "waiver", "feedback",
-        "mission")
+        "mission", "measured")
 
 
 def design_from_dict(data: dict[str, Any], *, file: str | Path | None = None) -> Design:
@@ -338,6 +351,7 @@ def design_from_dict(data: dict[str, Any], *, file: str | Path | None = None) ->
         waivers=_waivers(data.get("waiver", []), path),
         feedback=_feedback(data.get("feedback", {}), path),
         mission=_mission(data["mission"], path, inp, environment) if "mission" in data else (),
+        measured=_measured(data.get("measured", []), path),
         raw=data,
     )
 
@@ -429,7 +443,8 @@ def _outputs(top: _Reader, path: Path | None, n_first: float | None) -> tuple[Ou
     names: set[str] = set()
     for i, item in enumerate(raw):
         r = _Reader(item, f"output[{i}]", path,
-                    ("name", "vout", "iout", "vf", "cout", "esr", "turns_ratio", "dcr"))
+                    ("name", "vout", "iout", "vf", "cout", "esr", "turns_ratio", "dcr", "leakage",
+                     "winding_capacitance"))
         name = r.text("name", default=f"out{i + 1}" if len(raw) > 1 else "out")
         if name in names:
             raise r.error("name", f"{name!r} is used by two outputs; expected a distinct name per output")
@@ -450,7 +465,10 @@ def _outputs(top: _Reader, path: Path | None, n_first: float | None) -> tuple[Ou
         outs.append({"name": name, "vout": abs(vout), "iout": iout, "vf": vf if vf is not None else 0.0,
                      "vf_given": vf is not None, "turns_ratio": n, "cout": r.quantity("cout", "F", positive=True),
                      "esr": r.quantity("esr", "ohm", nonnegative=True),
-                     "dcr": r.quantity("dcr", "ohm", nonnegative=True), "key": r.key("turns_ratio")})
+                     "dcr": r.quantity("dcr", "ohm", nonnegative=True),
+                     "leakage": r.quantity("leakage", "H", positive=True),
+                     "winding_capacitance": r.quantity("winding_capacitance", "F", nonnegative=True),
+                     "key": r.key("turns_ratio")})
     # Same volts per turn on every winding (reference note sec. 7): derive or check n_j.
     vr = outs[0]["turns_ratio"] * (outs[0]["vout"] + outs[0]["vf"])
     result = []
@@ -551,6 +569,38 @@ def _extra_stress(data: Any, path: Path | None) -> tuple[ExtraStress, ...]:
             raise r.error("refs", f"no stress given; expected at least one of {', '.join(_EXTRA_KINDS)}")
         note = r.text("note", default="")
         result.append(ExtraStress(_refs(r.data["refs"], path, r.key("refs")), note=note, **values))
+    return tuple(result)
+
+
+#: Parameters a ``[[measured]]`` table may give, with their unit kinds.
+MEASURED_KINDS = {"voltage": "V", "current_peak": "A", "current_rms": "A", "power": "W", "temperature": "degC"}
+
+
+def _measured(data: Any, path: Path | None) -> tuple[Measured, ...]:
+    if isinstance(data, dict):
+        data = [data]
+    if not isinstance(data, list):
+        raise DesignError(f"expected [[measured]] tables, got {_show(data)}", file=path, key="measured")
+    result = []
+    seen: set[tuple[str, str]] = set()
+    for i, item in enumerate(data):
+        r = _Reader(item, f"measured[{i}]", path, ("ref", "parameter", "value", "note"))
+        for key in ("ref", "parameter", "value"):
+            if not r.has(key):
+                raise r.error(key, "missing: a measured stress names ref, parameter and value")
+        (ref,) = _refs(r.data["ref"], path, r.key("ref")) if isinstance(r.data["ref"], str) else (None,)
+        if ref is None:
+            raise r.error("ref", "expected one reference such as \"D1\"")
+        parameter = r.text("parameter")
+        if parameter not in MEASURED_KINDS:
+            raise r.error("parameter", _unknown(str(parameter), tuple(MEASURED_KINDS)).replace("unknown key",
+                                                                                              "unknown parameter"))
+        if (ref.upper(), parameter) in seen:
+            raise r.error("ref", f"{ref} {parameter} is measured twice; keep one figure (the worst)")
+        seen.add((ref.upper(), parameter))
+        value = r.quantity("value", MEASURED_KINDS[parameter], required=True)
+        result.append(Measured(ref, parameter, abs(value) if parameter != "temperature" else value,
+                               r.text("note", default="")))
     return tuple(result)
 
 
