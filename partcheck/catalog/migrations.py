@@ -18,7 +18,8 @@ Versions:
    import and update; NULL for parts written before version 2 (their time is unknown).  It is
    provenance of this catalog, not a property of the part, so exports leave it out.
 3. the exchange columns ``part.i_frm`` (diodes: repetitive peak forward current) and
-   ``part.b_sat`` (magnetics: saturation flux density at 100 °C), NULL for existing parts; and
+   ``part.b_sat`` (magnetics: saturation flux density at 100 °C), ``part.e_as`` and ``part.e_ar``
+   (switches: single-pulse and repetitive avalanche energy), NULL for existing parts; and
    ``part.part_number_key`` (:func:`partcheck.catalog.models.part_number_key` of the part number,
    filled for every existing part here, with the non-unique index ``ix_part_part_number_key``), so
    imports find part numbers that differ only in letter case or Unicode form.  The index is not
@@ -125,7 +126,7 @@ V3_BATCH: Final = 5000
 
 
 def _v3_columns_and_part_number_key(conn: Connection) -> None:
-    for name in ("i_frm", "b_sat"):
+    for name in ("i_frm", "b_sat", "e_as", "e_ar"):
         _add_column(conn, "part", Column(name, Float))
     _add_column(conn, "part", Column("part_number_key", String))
     # The part table as far as this step needs it (frozen here, not the live model).
@@ -146,7 +147,8 @@ def _v3_columns_and_part_number_key(conn: Connection) -> None:
 MIGRATIONS: Final[tuple[Migration, ...]] = (
     Migration(1, "create the part, curve_point, catalog_meta and catalog_migration tables", _v1_create_tables),
     Migration(2, "add part.updated_at (when each part was last written, UTC)", _v2_part_updated_at),
-    Migration(3, "add part.i_frm, part.b_sat and part.part_number_key (normalised part number, indexed)",
+    Migration(3, "add part.i_frm, part.b_sat, part.e_as, part.e_ar and part.part_number_key (normalised part "
+                 "number, indexed)",
               _v3_columns_and_part_number_key),
 )
 

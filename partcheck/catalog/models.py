@@ -113,6 +113,8 @@ _FIELD_LIST: Final[tuple[FieldSpec, ...]] = (
     _rating("rds_on_125", "ohm", ("switch",), "on-resistance at Tj = 125 °C [Ω]"),
     _rating("coss", "F", ("switch",), "output capacitance [F]"),
     _rating("qg", "C", ("switch",), "total gate charge [C]"),
+    _rating("e_as", "J", ("switch",), "single-pulse avalanche energy rating [J]"),
+    _rating("e_ar", "J", ("switch",), "repetitive avalanche energy rating [J]"),
     # diode
     _rating("vrrm", "V", ("diode",), "repetitive peak reverse voltage [V]"),
     _rating("if_avg", "A", ("diode",), "average forward current rating [A]"),
@@ -251,6 +253,8 @@ class Part(SQLModel, table=True):
     rds_on_125: float | None = None
     coss: float | None = None
     qg: float | None = None
+    e_as: float | None = None
+    e_ar: float | None = None
     vrrm: float | None = None
     if_avg: float | None = None
     ifsm: float | None = None
@@ -372,6 +376,8 @@ class PartRecord:
     rds_on_125: float | None = None
     coss: float | None = None
     qg: float | None = None
+    e_as: float | None = None
+    e_ar: float | None = None
     vrrm: float | None = None
     if_avg: float | None = None
     ifsm: float | None = None

@@ -75,3 +75,23 @@ def test_round_trip_with_the_new_columns_is_byte_identical(tmp_path, catalog_url
             again.import_file(tmp_path / source)
             again.export(tmp_path / f"b-{source}")
         assert (tmp_path / f"b-{source}").read_bytes() == (tmp_path / source).read_bytes(), source
+
+
+def test_avalanche_energy_columns(tmp_path):
+    """``e_as`` / ``e_ar`` (switches, joules): single-pulse and repetitive avalanche energy ratings."""
+    assert (FIELDS["e_as"].kind, FIELDS["e_as"].categories) == ("J", ("switch",))
+    assert (FIELDS["e_ar"].kind, FIELDS["e_ar"].categories) == ("J", ("switch",))
+    names = list(FIELDS)
+    assert names[names.index("qg") + 1: names.index("qg") + 3] == ["e_as", "e_ar"]
+    csv = tmp_path / "p.csv"
+    csv.write_text("part_number,category,subtype,vds_max,e_as,e_ar\nQ1,switch,mosfet,100 V,120 mJ,4 mJ\n",
+                   encoding="utf-8")
+    from partcheck.catalog.store import open_catalog
+
+    cat = open_catalog(tmp_path / "c.sqlite", create=True)
+    try:
+        cat.import_file(csv)
+        q = cat.get("Q1")
+        assert (q.e_as, q.e_ar) == (0.12, 0.004)
+    finally:
+        cat.close()

@@ -29,7 +29,7 @@ DUMPS = {1: DATA / "catalog-v1.sqlite.sql", 2: DATA / "catalog-v2.sqlite.sql"}
 V1_DUMP = DUMPS[1]
 TABLES = ("catalog_meta", "catalog_migration", "part", "curve_point")
 #: The columns each version added to ``part`` after version 1 (in the order its migration adds them).
-ADDED = {2: ["updated_at"], 3: ["i_frm", "b_sat", "part_number_key"]}
+ADDED = {2: ["updated_at"], 3: ["i_frm", "b_sat", "e_as", "e_ar", "part_number_key"]}
 
 
 def _dump_rows(version: int) -> dict[str, tuple[list[str], list[tuple]]]:
