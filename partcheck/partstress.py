@@ -96,7 +96,8 @@ class _Items:
         self.items: list[StressItem] = []
 
     def add(self, parameter: str, stress: float | None, corner: str, *, rating: float | None | str = "column",
-            temperature: float | None = None, detail: str = "", required: float | None = None) -> None:
+            temperature: float | None = None, detail: str = "", required: float | None = None,
+            steady: float | None = None, dominant: str = "") -> None:
         p = self.part
         if rating == "column":
             column = rating_column(p.category, parameter, self.policy, p)
@@ -113,7 +114,8 @@ class _Items:
             dielectric=getattr(p, "dielectric", None), parameter=parameter,
             stress=abs(stress) if stress is not None else None, rating=rating, corner=corner,
             temperature=temperature, t_max=getattr(p, "tj_max", None) or getattr(p, "t_max", None), detail=detail,
-            t_knee=getattr(p, "t_knee", None), rating_min=self._rating_min(parameter), required=required))
+            t_knee=getattr(p, "t_knee", None), rating_min=self._rating_min(parameter), required=required,
+            steady=steady, dominant=dominant))
 
     def _rating_min(self, parameter: str) -> float | None:
         """The part's minimum operating value from the column the rule's ``min_rating`` names."""
@@ -601,6 +603,27 @@ def feedback_items(refs, parts: dict[str, Any], role, ctx: PartContext, policy) 
 
 #: Stresses a ``[[extra_stress]]`` table may give (attributes of :class:`partcheck.design.ExtraStress`).
 EXTRA_PARAMETERS = ("voltage", "current_rms", "current_peak", "power", "temperature")
+
+
+def apply_measured(items: list[StressItem], measured) -> list[StressItem]:
+    """Bench figures (``[[measured]]``) replace the model's items of that reference and parameter.
+
+    The measured item keeps the model's rating, temperature and worst-corner peak for comparison
+    in its detail; a measured figure for a reference with no model item is kept as it stands.
+    """
+    import dataclasses
+
+    out = list(items)
+    for m in measured:
+        mine = [i for i in out if m.ref in i.refs and i.parameter == m.parameter and len(i.refs) == 1]
+        if not mine:
+            continue
+        worst = max((i for i in mine if i.stress is not None), key=lambda i: i.stress, default=mine[0])
+        model = f"; the model gave {worst.stress:.4g} at {worst.corner}" if worst.stress is not None else ""
+        out = [i for i in out if i not in mine]
+        out.append(dataclasses.replace(worst, stress=m.value, corner="measured", measured=True, dominant="measured",
+                                       steady=worst.steady, detail=f"measured: {m.note or 'bench figure'}{model}"))
+    return out
 
 
 def extra_items(extra, parts: dict[str, Any], ctx: PartContext, policy) -> list[StressItem]:

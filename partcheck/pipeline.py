@@ -193,8 +193,12 @@ def _part_items(design, assignment, ctx, policy, *, override: dict[str, Any] | N
         if override is None or set(extra.refs) & set(override):
             items += partstress.extra_items(extra, records, ctx, policy)
     # A stress the model could not compute but the designer measured or worked out replaces the gap.
-    return [i for i in items if not (i.stress is None and i.role != "extra"
-                                     and any((r, i.parameter) in given for r in i.refs))]
+    items = [i for i in items if not (i.stress is None and i.role != "extra"
+                                      and any((r, i.parameter) in given for r in i.refs))]
+    # A candidate in a measured part's place keeps the measured voltage (the circuit's ring), not
+    # the measured currents or temperatures, which belong to the fitted part.
+    measured = [m for m in design.measured if override is None or m.ref not in override or m.parameter == "voltage"]
+    return partstress.apply_measured(items, measured)
 
 
 @dataclasses.dataclass

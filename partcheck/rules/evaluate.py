@@ -78,6 +78,9 @@ class StressItem:
     t_knee: float | None = None
     rating_min: float | None = None
     required: float | None = None
+    steady: float | None = None  # the steady-state value when ``stress`` is a transient peak (SI)
+    dominant: str = ""  # which effect sets the peak ("leakage ring", "clamp", "measured" ...)
+    measured: bool = False  # ``stress`` is a bench figure from the design file, not the model's
 
 
 @dataclass
@@ -103,6 +106,9 @@ class Finding:
     alternatives: list[Any] = field(default_factory=list)
     category: str = ""
     confidence: str = ""
+    steady: float | None = None
+    dominant: str = ""
+    measured: bool = False
 
     def to_dict(self) -> dict[str, Any]:
         return {
@@ -113,6 +119,7 @@ class Finding:
             "status": self.status, "rule": self.rule, "source": self.source, "confidence": self.confidence,
             "detail": self.detail, "waiver": self.waiver.to_dict() if self.waiver else None,
             "alternatives": [a.to_dict() if hasattr(a, "to_dict") else a for a in self.alternatives],
+            "steady": _finite(self.steady), "dominant": self.dominant, "measured": self.measured,
         }
 
 
@@ -174,7 +181,7 @@ def assess(item: StressItem, policy: Policy) -> Finding:
     rule = policy.rule_for(item.category, item.parameter, item.subtype, item.dielectric)
     base = dict(refs=tuple(item.refs), part_number=item.part_number, role=item.role, parameter=item.parameter,
                 stress=item.stress, rating=item.rating, corner=item.corner, unit=PARAMETERS[item.parameter],
-                category=item.category)
+                category=item.category, steady=item.steady, dominant=item.dominant, measured=item.measured)
     if rule is None and (item.stress is None or not math.isfinite(item.stress)):
         # Nothing computed and nothing to compare with: still a stress the reviewer must know is open.
         return Finding(**base, limit=None, utilization=None, margin=None, status="not_assessed", rule="none",
