@@ -110,10 +110,24 @@ class Transformer:
 
 @dataclass(frozen=True)
 class Clamp:
-    """``[clamp]``: the primary clamp that catches the leakage energy."""
+    """``[clamp]``: the primary clamp that catches the leakage energy.
+
+    None in an optional field means "not given": :func:`partcheck.stress.clamp.resolve` applies
+    the stated default (``docs/design-file.md``, ``[clamp]``).
+    """
 
     kind: str  # "zener" | "tvs" | "rcd"
-    vclamp: float  # clamp voltage across the primary [V]
+    # clamp voltage across the primary: Zener/TVS clamping voltage at its peak current, or the RCD
+    # capacitor voltage; with an RCD resistor the designer's expected value (inf: not given) [V]
+    vclamp: float
+    resistor: float | None = None  # RCD: total clamp resistance; decides the clamp voltage [Ω]
+    capacitor: float | None = None  # RCD: clamp capacitance, for the ripple [F]
+    tolerance: float | None = None  # Zener/TVS voltage tolerance [-]
+    tempco: float | None = None  # Zener/TVS breakdown temperature coefficient [1/K]
+    t_junction: float | None = None  # Zener/TVS junction temperature [°C]
+    v_forward_recovery: float | None = None  # clamp-diode forward-recovery overshoot [V]
+    loop_inductance: float | None = None  # clamp-loop stray inductance [H]
+    diode_type: str = "ultrafast"  # clamp (blocking) diode: "ultrafast" | "standard" | "schottky" | "sic"
 
 
 @dataclass(frozen=True)
@@ -489,21 +503,67 @@ def _outputs(top: _Reader, path: Path | None, n_first: float | None) -> tuple[Ou
     return tuple(result)
 
 
+_CLAMP_KEYS = ("kind", "vclamp", "resistor", "capacitor", "tolerance", "tempco", "t_junction", "v_forward_recovery",
+               "loop_inductance", "diode_type")
+_ZENER_ONLY = ("tolerance", "tempco", "t_junction")
+_RCD_ONLY = ("resistor", "capacitor")
+
+
 def _clamp(top: _Reader, path: Path | None, tr: Transformer, outs: tuple[Output, ...]) -> Clamp | None:
+    from .stress.clamp import DIODE_TYPES
+
     if not top.has("clamp"):
         if tr.llk > 0:
             raise top.error("clamp", f"missing: transformer.llk is {format_quantity(tr.llk, 'H')}, so the leakage "
                                      "energy needs a [clamp] table (kind, vclamp); or set llk = 0")
         return None
-    r = _Reader(top.data["clamp"], "clamp", path, ("kind", "vclamp"))
+    r = _Reader(top.data["clamp"], "clamp", path, _CLAMP_KEYS)
     kind = r.text("kind", default="zener", choices=("zener", "tvs", "rcd"))
-    vc = r.quantity("vclamp", "V", required=True, positive=True)
+    rcd = kind == "rcd"
+    for key in _RCD_ONLY if not rcd else _ZENER_ONLY:
+        if r.has(key):
+            what = (f"a {kind} clamp has no {key}; it applies to kind = \"rcd\"" if not rcd else
+                    f"{key} describes a Zener or TVS; an RCD clamp's voltage follows from clamp.resistor "
+                    "(or is the fixed clamp.vclamp)")
+            raise r.error(key, what)
+    resistor = r.quantity("resistor", "ohm", positive=True)
+    capacitor = r.quantity("capacitor", "F", positive=True)
+    if rcd and resistor is None and not r.has("vclamp"):
+        raise r.error("vclamp", "missing; an RCD clamp needs resistor (the total clamp resistance, which sets the "
+                                "clamp voltage) or vclamp (a fixed clamp voltage), or both")
+    vc = r.quantity("vclamp", "V", required=not (rcd and resistor is not None), positive=True)
     vr = outs[0].turns_ratio * (outs[0].vout + outs[0].vf)
-    if vc <= vr:
+    if vc is not None and vc <= vr:
         raise r.error("vclamp", f"{format_quantity(vc, 'V')} is at or below the reflected voltage "
                                 f"{format_quantity(vr, 'V')} = n·(Vout + Vf); the clamp would conduct the "
                                 "whole off-time. Expected a clamp voltage above it (1.5-2.5 × Vr is usual)")
-    return Clamp(kind, vc)
+    tol = r.quantity("tolerance", "%", nonnegative=True)
+    if tol is not None and tol >= 0.5:
+        raise r.error("tolerance", f"{_show(r.data['tolerance'])} is 50 % or more; expected the clamp voltage "
+                                   "tolerance as a fraction such as 0.05 or \"5%\"")
+    tempco = None
+    if r.has("tempco"):
+        raw = r.data["tempco"]
+        text = raw.strip().removesuffix("/K").removesuffix("/ K").strip() if isinstance(raw, str) else raw
+        try:
+            tempco = parse_quantity(text, "%")
+        except QuantityError:
+            raise r.error("tempco", f"{_show(raw)} is not a temperature coefficient; expected a fraction per kelvin "
+                                    "such as 0.001 or \"0.1 %/K\"") from None
+        if not -0.01 <= tempco <= 0.01:
+            raise r.error("tempco", f"{_show(raw)} is outside ±1 %/K; expected a fraction per kelvin such as 0.001 "
+                                    "or \"0.1 %/K\"")
+    tj = r.quantity("t_junction", "degC")
+    if tj is not None and not -70.0 <= tj <= 250.0:
+        raise r.error("t_junction", f"{format_quantity(tj, 'degC')} is outside -70..250 °C")
+    v_fr = r.quantity("v_forward_recovery", "V", nonnegative=True)
+    l_loop = r.quantity("loop_inductance", "H", nonnegative=True)
+    if l_loop is not None and l_loop > 1e-6:
+        raise r.error("loop_inductance", f"{format_quantity(l_loop, 'H')} is more than 1 µH; the clamp loop's stray "
+                                         "inductance is a few to tens of nH (leakage belongs in transformer.llk)")
+    diode = r.text("diode_type", default="ultrafast", choices=DIODE_TYPES)
+    return Clamp(kind, vc if vc is not None else math.inf, resistor=resistor, capacitor=capacitor, tolerance=tol,
+                 tempco=tempco, t_junction=tj, v_forward_recovery=v_fr, loop_inductance=l_loop, diode_type=diode)
 
 
 def _environment(top: _Reader, path: Path | None) -> Environment:

@@ -58,9 +58,15 @@ def operating_points(design: Design, corners: list[CornerSpec], *, vin=None, lm_
 
     ``vin`` overrides the corners' input voltages (an array of the same length, for sweeps); the
     ``*_scale`` multipliers (scalars or arrays of that length) apply tolerances.  Efficiency is
-    capped at 1.
+    capped at 1.  ``vclamp_scale`` scales the fixed (or expected) ``clamp.vclamp`` only; an RCD
+    clamp given by its resistor takes its voltage from the resistor at each corner.  The clamp's
+    stated defaults (Zener/TVS tolerance and temperature, forward recovery, loop inductance, node
+    capacitance) come from :func:`partcheck.stress.clamp.resolve`.
     """
+    from .clamp import resolve
+
     conv, tr, outs = design.converter, design.transformer, design.outputs
+    cm = resolve(design)
     vin = np.array([c.vin for c in corners], dtype=float) if vin is None else np.asarray(vin, dtype=float)
     per = lambda attr, default=np.nan: np.array(
         [getattr(o, attr) if getattr(o, attr) is not None else default for o in outs], dtype=float)
@@ -77,4 +83,10 @@ def operating_points(design: Design, corners: list[CornerSpec], *, vin=None, lm_
         ilim=conv.current_limit if conv.current_limit is not None else np.nan,
         t_pd=conv.current_limit_delay,
         at_limit=np.array([c.load == LIMIT for c in corners]) if len(corners) == vin.size else False,
+        rclamp=cm.resistor if cm is not None else np.inf,
+        cclamp=cm.capacitor if cm is not None else np.nan,
+        clamp_factor=cm.level_factor if cm is not None else 1.0,
+        v_fr=cm.v_forward_recovery if cm is not None else 0.0,
+        l_loop=cm.loop_inductance if cm is not None else 0.0,
+        c_node=cm.node_capacitance if cm is not None else 100e-12,
     )

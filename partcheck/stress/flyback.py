@@ -33,6 +33,7 @@ from dataclasses import dataclass, fields
 
 import numpy as np
 
+from .clamp import clamp_ripple, loop_overshoot, rcd_clamp_voltage
 from .magnetics import core_peak_current
 from .waveform import PiecewiseLinear
 
@@ -54,6 +55,13 @@ class OperatingPoints:
     boundary: boundary (valley) mode [bool].  cd: drain-node capacitance for the valley delay [F].
     valley: valley number [-].  ilim: switch current limit (NaN = none) [A].  t_pd: current-limit
     propagation delay [s].  at_limit: the load is raised until the switch peak reaches the limit.
+    rclamp: RCD clamp resistance; finite, the clamp voltage follows from it at every corner and
+    ``vclamp`` is ignored (inf/NaN = the fixed ``vclamp``) [Ω].  cclamp: RCD clamp capacitance for
+    the ripple estimate (NaN/inf = none) [F].  clamp_factor: highest Zener/TVS level per volt of
+    ``vclamp`` over tolerance and temperature, used for the drain peak only (1 = the nominal) [-].
+    v_fr: clamp-diode forward-recovery overshoot [V].  l_loop: clamp-loop stray inductance [H].
+    c_node: drain-node capacitance for the drain rise time of the loop overshoot [F].  The defaults
+    of :meth:`create` (inf, NaN, 1, 0, 0, 100 pF) add nothing to the drain peak.
     """
 
     vin: np.ndarray
@@ -75,18 +83,27 @@ class OperatingPoints:
     ilim: np.ndarray
     t_pd: np.ndarray
     at_limit: np.ndarray
+    rclamp: np.ndarray
+    cclamp: np.ndarray
+    clamp_factor: np.ndarray
+    v_fr: np.ndarray
+    l_loop: np.ndarray
+    c_node: np.ndarray
 
     _PER_OUTPUT = ("vout", "iout", "vf", "n", "rsec", "cout", "esr")
 
     @classmethod
     def create(cls, *, vin, vout, iout, n, lm, fsw, eta, vf=0.0, rsec=0.0, cout=np.nan, esr=np.nan, llk=0.0,
-               vclamp=np.inf, boundary=False, cd=0.0, valley=1, ilim=np.nan, t_pd=0.0, at_limit=False):
+               vclamp=np.inf, boundary=False, cd=0.0, valley=1, ilim=np.nan, t_pd=0.0, at_limit=False,
+               rclamp=np.inf, cclamp=np.nan, clamp_factor=1.0, v_fr=0.0, l_loop=0.0, c_node=100e-12):
         """Broadcast scalars and arrays to ``(N,)`` and ``(N, m)`` shapes."""
         vin = np.atleast_1d(np.asarray(vin, dtype=float))
         per = {k: np.asarray(v, dtype=float) for k, v in
                {"vout": vout, "iout": iout, "vf": vf, "n": n, "rsec": rsec, "cout": cout, "esr": esr}.items()}
         m = max(np.atleast_1d(per["vout"]).shape[-1], np.atleast_1d(per["iout"]).shape[-1])
-        scal = {"lm": lm, "llk": llk, "fsw": fsw, "eta": eta, "vclamp": vclamp, "cd": cd, "ilim": ilim, "t_pd": t_pd}
+        scal = {"lm": lm, "llk": llk, "fsw": fsw, "eta": eta, "vclamp": vclamp, "cd": cd, "ilim": ilim, "t_pd": t_pd,
+                "rclamp": rclamp, "cclamp": cclamp, "clamp_factor": clamp_factor, "v_fr": v_fr, "l_loop": l_loop,
+                "c_node": c_node}
         n_corners = max([vin.size] + [np.size(v) for v in scal.values()] +
                         [np.atleast_2d(v).shape[0] if np.ndim(v) == 2 else 1 for v in per.values()])
         shape1, shape2 = (n_corners,), (n_corners, m)
@@ -133,10 +150,20 @@ def solve(op: OperatingPoints, chunk: int = 32768) -> dict[str, np.ndarray]:
     is_rms_j, is_avg_j, icout_j [A], vrect_j, vripple_j [V], scale_j (secondary = scale·referred) [-],
     icin [A], secondary_fit (the secondary charge fits the off-time) [bool].
 
+    Clamp and drain peak [V]: clamp_vc (mean clamp voltage: the fixed vclamp, or the RCD
+    resistor's energy balance), clamp_ripple (ΔVc ≈ P_clamp/(Vc·Cc·fs), NaN without a capacitor),
+    clamp_level (the clamp voltage the drain sees: Vc + ΔVc/2, or vclamp·clamp_factor for a
+    Zener/TVS), sw_v_plateau (Vin + reflected plateau), sw_vpk_steady (Vin + clamp_level; Vin +
+    plateau without a clamp), sw_vpk_fr (forward recovery), sw_vpk_loop (L_loop·Ipk²/(C_node·
+    (Vin + clamp_level))), sw_vpk = steady + fr + loop; clamp_v = clamp_vc + ΔVc/2 (the voltage on
+    the clamp parts); clamp_diode_i_off (the clamp diode's current when it turns off: 0, the
+    leakage current falls softly to zero) [A].
+
     References
     ----------
     Flyback reference note secs. 0, 1.1-1.4, 2.1, 2.2, 3.1, 3.2, 5, 7 (Erickson & Maksimovic ch. 6,
-    Mohan/Undeland/Robbins ch. 10, Hart ch. 7 treatment, from memory; leakage interval derived).
+    Mohan/Undeland/Robbins ch. 10, Hart ch. 7 treatment, from memory; leakage interval derived);
+    the clamp formulas in :mod:`partcheck.stress.clamp`.
     """
     with np.errstate(all="ignore"):
         if len(op) <= chunk:
@@ -156,7 +183,10 @@ def solve(op: OperatingPoints, chunk: int = 32768) -> dict[str, np.ndarray]:
 def _solve(op: OperatingPoints) -> dict[str, np.ndarray]:
     # Per-corner quantities are (N,) arrays; per-output ones are handled as (m, N) so that every
     # operation runs along contiguous rows (the results are handed back as (N, m) views).
-    vin, lm, llk, eta, vc = op.vin, op.lm, op.llk, op.eta, op.vclamp
+    vin, lm, llk, eta, vc_fixed = op.vin, op.lm, op.llk, op.eta, op.vclamp
+    by_r = np.isfinite(op.rclamp)  # RCD clamp: the voltage follows from its resistor (sec. 2.1) [D]
+    any_r = bool(by_r.any())
+    vc = vc_fixed
     vout, vf, n_j, rsec, esr = op.vout.T, op.vf.T, op.n.T, op.rsec.T, np.nan_to_num(op.esr.T)
     lp = lm + llk  # the on-time ramp inductance [H]
     has_lk = llk > 0
@@ -170,8 +200,6 @@ def _solve(op: OperatingPoints) -> dict[str, np.ndarray]:
     passes = 2 if np.any(rsec > 0) else 1
     for _ in range(passes):
         vr = n_j[0] * (vout[0] + vf_eff[0])  # reflected voltage (sec. 0) [M]
-        gamma = np.where(has_lk, llk / (vc - vr), 0.0)  # ts per ampere of Ipk [s/A]
-        beta = 1.0 - vr * gamma / lm  # share of the magnetizing current left after ts [-]
         vin_m = vin * lm / lp  # the part of Vin across Lm during the on-time [V]
         d_ccm = vr / (vin_m + vr)  # volt-second balance on Lm (sec. 1.2 with Llk) [D]
         a_bcm = lp / vin + lm / vr  # BCM: T = a·Ipk + td (sec. 1.4) [D]
@@ -208,6 +236,10 @@ def _solve(op: OperatingPoints) -> dict[str, np.ndarray]:
             ipk = np.where(bcm, ipk_b, np.sqrt(2.0 * pin / (lp * fs)))
         else:
             fs_clamped = bcm = np.zeros(vin.shape, dtype=bool)
+        if any_r:  # Vc²/Rc = ½·Llk·Ipk²·fs·Vc/(Vc − Vr) (sec. 2.1) [D]
+            vc = np.where(by_r, rcd_clamp_voltage(op.rclamp, llk, ipk, fs, vr), vc_fixed)
+        gamma = np.where(has_lk, llk / (vc - vr), 0.0)  # ts per ampere of Ipk [s/A]
+        beta = 1.0 - vr * gamma / lm  # share of the magnetizing current left after ts [-]
         period = 1.0 / fs
         dip = vin_m * d_ccm * period / lm  # = Vin·D/(Lp·fs)
         # CCM valley from the switch charge per cycle Iin·T = tc·Iv/2 + (Iv + dIp/2)·D_ccm·T (sec. 1.2 with tc) [D]
@@ -268,14 +300,27 @@ def _solve(op: OperatingPoints) -> dict[str, np.ndarray]:
     # resistance and the bank's ESR (sec. 2.1, n·(Vo + Vf + Ispk·Rsec)) [M]/[D].
     vr_pk = np.max(n_j * (vout + vf_eff + (rsec + esr) * is_pk_sec), axis=0)
     mode = np.where(ccm, CCM, np.where(bcm, BCM, DCM))
+    # Clamp voltage the drain sees: RCD capacitor peak Vc + ΔVc/2, or the Zener/TVS at its highest
+    # level over tolerance and temperature; then the forward-recovery and loop overshoots (sec. 2.1).
+    has_c = np.isfinite(op.cclamp) & (op.cclamp > 0)
+    ripple = np.where(has_c & clamped, clamp_ripple(p_clamp, vc, op.cclamp, fs), np.nan)
+    half = np.where(np.isfinite(ripple), 0.5 * ripple, 0.0)
+    level = np.where(by_r | has_c, vc + half, vc * op.clamp_factor)
+    v_plateau = vin + vr_pk
+    steady = np.where(clamped, vin + level, v_plateau)
+    v_fr = np.where(clamped, op.v_fr, 0.0)
+    v_loop = np.where(clamped & (op.l_loop > 0), loop_overshoot(op.l_loop, ipk, op.c_node, steady), 0.0)
     return {
         "mode": mode, "fs": fs, "fs_clamped": fs_clamped, "duty": duty, "d2": (ts + t2) * fs,
         "ton": ton, "tc": tc_s, "ts": ts, "t2": t2, "vr": vr, "pin": pin, "po": po, "psec": psec, "p_clamp": p_clamp,
         "iin": iin, "ipk": ipk, "iv": iv, "sw_rms": np.sqrt(sw_ms), "sw_avg": sw_avg, "icin": icin,
         "clamp_avg": clamp_avg, "clamp_rms": np.sqrt(clamp_ms), "ts_primary": ts_p,
         "pri_rms": np.sqrt(sw_ms + clamp_ms), "sec_pk_ref": im_ts, "sec_v_ref": isv, "lp": lp,
-        "sw_vpk": vin + np.where(clamped, vc, vr_pk),  # (sec. 2.1) [M]
-        "clamp_v": np.where(clamped, vc, vr), "clamp_diode_vr": vin + np.where(np.isfinite(vc), vc, vr),
+        "sw_vpk": steady + v_fr + v_loop,  # (sec. 2.1) [M]/[CP]
+        "sw_vpk_steady": steady, "sw_vpk_fr": v_fr, "sw_vpk_loop": v_loop, "sw_v_plateau": v_plateau,
+        "clamp_vc": np.where(clamped, vc, np.nan), "clamp_ripple": ripple,
+        "clamp_level": np.where(clamped, level, np.nan), "clamp_diode_i_off": np.zeros(vin.shape),
+        "clamp_v": np.where(clamped, vc + half, vr), "clamp_diode_vr": vin + np.where(np.isfinite(vc), vc + half, vr),
         "secondary_fit": (ts <= toff * (1 + 1e-9)) & (beta > 0), "beta": beta,
         "vin_dc": vin, "iout_j": iout.T, "vout_j": op.vout, "scale_j": scale.T, "is_pk_j": is_pk.T,
         "is_rms_j": is_rms.T, "is_avg_j": (scale * avg_ref).T, "icout_j": icout.T, "vripple_j": vripple.T,
@@ -325,11 +370,14 @@ def waveforms_at(op: OperatingPoints, sol: dict[str, np.ndarray], i: int,
 # --------------------------------------------------------------------------------------------
 
 #: Stresses kept at a voltage-only (surge) corner.
-VOLTAGE_KEYS = frozenset({"v_peak", "v_reverse", "v", "v_dc"})
+VOLTAGE_KEYS = frozenset({"v_peak", "v_reverse", "v", "v_dc", "v_plateau", "v_clamp_level", "v_overshoot_fr",
+                          "v_overshoot_loop", "v_reflected", "v_mean"})
 
 #: Unit kind of each stress key (for tables).
 STRESS_KINDS = {"v_peak": "V", "v_reverse": "V", "v": "V", "v_dc": "V", "v_ripple_pp": "V", "i_peak": "A",
-                "i_rms": "A", "i_avg": "A", "i_rms_pri": "A", "i_rms_sec": "A", "p_loss": "W", "b_peak": "T"}
+                "i_rms": "A", "i_avg": "A", "i_rms_pri": "A", "i_rms_sec": "A", "p_loss": "W", "b_peak": "T",
+                "v_plateau": "V", "v_clamp_level": "V", "v_overshoot_fr": "V", "v_overshoot_loop": "V",
+                "v_reflected": "V", "v_mean": "V", "i_off": "A"}
 
 
 @dataclass
@@ -393,7 +441,25 @@ def output_role(role: str, design, j: int) -> str:
 
 
 def role_stresses(design, sol: dict[str, np.ndarray], i: int, voltage_only: bool = False) -> dict[str, dict]:
-    """Role → stress → value at corner ``i`` of a solved design (SI units; None when unknown)."""
+    """Role → stress → value at corner ``i`` of a solved design (SI units; None when unknown).
+
+    switch: ``v_peak`` [V] the drain peak, the sum of ``v_clamp_level`` (Vin + the clamp voltage the
+    drain sees: RCD capacitor peak Vc + ΔVc/2, or the Zener/TVS at its highest level; Vin + the
+    reflected plateau without leakage), ``v_overshoot_fr`` (clamp-diode forward recovery) and
+    ``v_overshoot_loop`` (clamp-loop L·di/dt); ``v_plateau`` [V] Vin + the reflected plateau (the
+    drain after the leakage reset); ``v_reflected`` [V] Vr = n·(Vout + Vf), for the avalanche energy
+    (:func:`partcheck.stress.clamp.avalanche_energy`); ``i_peak``, ``i_rms``, ``i_avg`` [A].
+    clamp (with a ``[clamp]``): ``v`` [V] the voltage on the clamp parts (RCD: Vc + ΔVc/2),
+    ``v_mean`` [V] the mean clamp voltage (fixed, or from the resistor), ``v_ripple_pp`` [V] (RCD
+    with a capacitor only), ``p_loss`` [W], ``i_peak``, ``i_avg``, ``i_rms`` [A].  clamp_diode:
+    ``v_reverse`` [V], ``i_peak``, ``i_avg``, ``i_rms`` [A] and ``i_off`` [A], the current it turns
+    off from: 0, the leakage current falls softly to zero at the end of the reset, so its reverse
+    recovery loss is about 0.
+
+    References
+    ----------
+    flyback-equations.md §2.1 (drain peak, clamp), common practice for the overshoots.
+    """
     from .magnetics import flux_density_peak
 
     def f(key, j=None):
@@ -401,7 +467,9 @@ def role_stresses(design, sol: dict[str, np.ndarray], i: int, voltage_only: bool
         return float(v) if np.isfinite(v) else None
 
     roles: dict[str, dict] = {
-        "switch": {"v_peak": f("sw_vpk"), "i_peak": f("ipk"), "i_rms": f("sw_rms"), "i_avg": f("sw_avg")}}
+        "switch": {"v_peak": f("sw_vpk"), "i_peak": f("ipk"), "i_rms": f("sw_rms"), "i_avg": f("sw_avg"),
+                   "v_plateau": f("sw_v_plateau"), "v_clamp_level": f("sw_vpk_steady"),
+                   "v_overshoot_fr": f("sw_vpk_fr"), "v_overshoot_loop": f("sw_vpk_loop"), "v_reflected": f("vr")}}
     for j in range(len(design.outputs)):
         roles[output_role("rectifier", design, j)] = {
             "v_reverse": f("vrect_j", j), "i_peak": f("is_pk_j", j), "i_rms": f("is_rms_j", j),
@@ -409,9 +477,11 @@ def role_stresses(design, sol: dict[str, np.ndarray], i: int, voltage_only: bool
     if design.clamp is not None:
         lk = design.transformer.llk > 0
         roles["clamp"] = {"v": f("clamp_v"), "p_loss": f("p_clamp"), "i_peak": f("ipk") if lk else 0.0,
-                          "i_avg": f("clamp_avg"), "i_rms": f("clamp_rms")}
+                          "i_avg": f("clamp_avg"), "i_rms": f("clamp_rms"), "v_mean": f("clamp_vc")}
+        if design.clamp.kind == "rcd" and design.clamp.capacitor is not None:
+            roles["clamp"]["v_ripple_pp"] = f("clamp_ripple")
         roles["clamp_diode"] = {"v_reverse": f("clamp_diode_vr"), "i_peak": f("ipk") if lk else 0.0,
-                                "i_avg": f("clamp_avg"), "i_rms": f("clamp_rms")}
+                                "i_avg": f("clamp_avg"), "i_rms": f("clamp_rms"), "i_off": f("clamp_diode_i_off")}
     roles["input_cap"] = {"v_dc": f("vin_dc"), "i_rms": f("icin")}
     for j in range(len(design.outputs)):
         roles[output_role("output_cap", design, j)] = {"v_dc": f("vout_j", j), "i_rms": f("icout_j", j),
@@ -432,6 +502,7 @@ def role_stresses(design, sol: dict[str, np.ndarray], i: int, voltage_only: bool
 
 def _prepare(design, specs=None):
     from ..design import Design, load_design
+    from . import clamp as _clamp
     from . import corners as _corners
     from . import validity
 
@@ -440,7 +511,9 @@ def _prepare(design, specs=None):
     specs = _corners.build_corners(design) if specs is None else list(specs)
     op = _corners.operating_points(design, specs)
     sol = solve(op)
+    _clamp.check(design, specs, op, sol)
     keep, notes = validity.check(design, specs, op, sol)
+    notes = notes + _clamp.notes(design, specs, sol)
     return design, specs, op, sol, keep, notes
 
 
