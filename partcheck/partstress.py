@@ -21,6 +21,7 @@ from .rules.evaluate import StressItem
 from .rules.policy import DEFAULT_RATINGS
 from .stress import capacitors as caps_model
 from .stress import feedback as fb_model
+from .stress import ringing
 from .stress import semiconductors as semi
 from .stress.waveform import PiecewiseLinear
 
@@ -67,7 +68,10 @@ class PartContext:
     mission: list[tuple[float, Corner]] = field(default_factory=list)  # (fraction of time, corner) for life
     efficiency_factors: dict[str, float] = field(default_factory=dict)  # corner → efficiency used / design
     gate_resistance: float | None = None  # the mapped gate resistor's resistance [Ω]
+    snubbers: dict[str, tuple[float | None, float | None]] = field(default_factory=dict)  # output → (Rs [Ω], Cs [F])
     switch_part: Any = None  # the switch's catalog record (for the gate resistor)
+    rectifier_parts: dict[str, Any] = field(default_factory=dict)  # output name → rectifier record
+    snubber_hints: dict[str, str] = field(default_factory=dict)  # rectifier ref → classic sizing note
     notes: list[str] = field(default_factory=list)  # operating remarks for the reviewer
 
     @property
@@ -238,6 +242,130 @@ def diode_items(refs, part, role, ctx: PartContext, policy, *, engine_role: str 
         out.add("temperature", th.tj, c.id, detail=f"P = {th.p_total:.3g} W")
         out.add("power", th.p_total, c.id, rating=None)
     return out.items
+
+
+def _output_index(design, role: str) -> int:
+    name = role.split(":")[1] if ":" in role else design.outputs[0].name
+    return next((j for j, o in enumerate(design.outputs) if o.name == name), 0)
+
+
+def rectifier_ring(ctx: PartContext, c: Corner, j: int, part, *, snubber: bool = True,
+                   valley_a: float | None = None) -> ringing.RingResult:
+    """The reverse-voltage ring of output ``j``'s rectifier at corner ``c`` (stated defaults for
+    what the design and catalog leave out, recorded in the assumptions)."""
+    d = ctx.design
+    o = d.outputs[j]
+    l_sec = o.leakage
+    if l_sec is None:
+        l_sec = ringing.default_secondary_leakage(d.transformer.llk, o.turns_ratio) if d.transformer.llk > 0 \
+            else 1e-9
+        ctx.assumptions.add(f"output {o.name}: secondary leakage {l_sec * 1e9:.3g} nH = primary leakage / n² "
+                            "(the whole measured leakage referred to the secondary; give [[output]] leakage)")
+    subtype = part.subtype or "standard"
+    c_j = part.cj
+    if c_j is None:
+        c_j = ringing.DEFAULT_CJ_F.get(subtype, ringing.DEFAULT_CJ_F["standard"])
+        ctx.assumptions.add(f"{part.part_number}: junction capacitance {c_j * 1e12:g} pF assumed for a {subtype} "
+                            "diode (no cj in the catalog)")
+    c_w = o.winding_capacitance
+    if c_w is None:
+        c_w = ringing.DEFAULT_WINDING_CAPACITANCE_F
+        ctx.assumptions.add(f"output {o.name}: winding capacitance {c_w * 1e12:g} pF across the rectifier "
+                            "(give [[output]] winding_capacitance)")
+    if valley_a is None:
+        valley_a = _secondary_valley(ctx, c, o.name)
+    rs, cs = ctx.snubbers.get(o.name, (None, None)) if snubber else (None, None)
+    qrr = part.qrr
+    i_test = part.vf_current or part.if_avg
+    if qrr is not None and i_test and valley_a < i_test:
+        # Stored charge is proportional to the forward current (charge-control model): the catalog's
+        # Qrr, quoted at about the rated current, scaled down to the current this diode turns off.
+        qrr = qrr * valley_a / i_test
+    return ringing.rectifier_peak(c.vin, o.turns_ratio, o.vout, o.vf, c.mode.lower(), l_sec_h=l_sec, c_j_f=c_j,
+                                  c_w_f=c_w, i_sec_valley_a=valley_a, qrr_c=qrr, trr_s=part.trr,
+                                  subtype=subtype, r_loop_ohm=o.dcr or 0.0, snubber_r_ohm=rs, snubber_c_f=cs)
+
+
+def _secondary_valley(ctx: PartContext, c: Corner, name: str) -> float:
+    """Rectifier current when the switch turns on [A]: the end of its conduction in CCM.  At a
+    voltage-only (surge) corner, the largest of the current corners' (conservative)."""
+    def valley(corner):
+        waves = corner.waves or {}
+        wave = waves.get(f"rectifier:{name}") or waves.get("rectifier")
+        return float(wave.y[-1]) if wave is not None and corner.mode == "CCM" else 0.0
+    if c.waves is not None:
+        return valley(c)
+    return max((valley(k) for k in ctx.current_corners), default=0.0)
+
+
+def rectifier_items(refs, part, role, ctx: PartContext, policy) -> list[StressItem]:
+    """The output rectifier: as any diode, with the reverse voltage at the peak of its turn-on ring."""
+    items = diode_items(refs, part, role, ctx, policy)
+    j = _output_index(ctx.design, role)
+    out = _Items(refs, part, role, policy)
+    for c in ctx.corners:
+        steady = _r(c, role, "v_reverse")
+        if steady is None:
+            continue
+        ring = rectifier_ring(ctx, c, j, part)
+        out.add("voltage", max(ring.v_peak, steady), c.id, steady=steady, dominant=ring.dominant,
+                detail=f"steady {steady:.4g} V; turn-on ring to {ring.v_peak:.4g} V ({ring.dominant}: "
+                       f"{ring.f_ring_hz / 1e6:.3g} MHz, Z0 {ring.z0_ohm:.3g} Ω, ζ {ring.zeta:.2g}"
+                       + (f", reverse recovery {ring.i_initial_a:.3g} A" if ring.i_initial_a > 0 else "") + ")")
+    if not ctx.snubbers.get(ctx.design.outputs[j].name) and any(i.stress for i in out.items):
+        worst = max(out.items, key=lambda i: i.stress or 0.0)
+        c = next(k for k in ctx.corners if k.id == worst.corner)
+        ring = rectifier_ring(ctx, c, j, part)
+        l_loop = (ring.z0_ohm / (2 * math.pi * ring.f_ring_hz)) if ring.f_ring_hz > 0 else 0.0
+        c_par = 1.0 / (ring.z0_ohm * 2 * math.pi * ring.f_ring_hz) if ring.f_ring_hz > 0 else 0.0
+        if l_loop > 0 and c_par > 0:
+            r_s, c_s = ringing.classic_rc_snubber(l_loop, c_par)
+            note = (f"{refs[0]}: no RC snubber across the rectifier; the classic sizing for its {ring.f_ring_hz / 1e6:.3g} "
+                    f"MHz ring is Rs ≈ {r_s:.3g} Ω, Cs ≈ {c_s * 1e12:.3g} pF (R = √(L/C), Cs = 4·C)")
+            ctx.snubber_hints[refs[0]] = note
+    return [i for i in items if i.parameter != "voltage"] + out.items
+
+
+def snubber_items(refs, parts: dict[str, Any], role, ctx: PartContext, policy) -> list[StressItem]:
+    """RC snubber across an output rectifier: resistor power Cs·V²·fs + ring energy·fs and voltage,
+    capacitor voltage and RMS current (RC charging pulses at both edges)."""
+    d = ctx.design
+    j = _output_index(d, role)
+    o = d.outputs[j]
+    rect = ctx.rectifier_parts.get(o.name)
+    rs, cs = ctx.snubbers.get(o.name, (None, None))
+    items: list[StressItem] = []
+    for ref in refs:
+        part = parts[ref]
+        out = _Items([ref], part, role, policy)
+        for c in ctx.corners:
+            if rect is None or rs is None or cs is None:
+                why = ("no rectifier mapped for output " + o.name) if rect is None else \
+                    "the snubber needs one resistor with a resistance and one capacitor with a capacitance"
+                out.add("power" if part.category == "resistor" else "voltage", None, c.id, detail=why)
+                break
+            ring = rectifier_ring(ctx, c, j, rect)
+            swing = ring.v_steady + o.vf
+            if part.category == "capacitor":
+                # RMS current of the RC charging pulses at both edges, ΔV·√(fs·Cs/Rs); ceramics carry no
+                # ripple rating, so it is checked only when the catalog has one and stated otherwise.
+                i_rms = swing * math.sqrt(c.fsw * cs / rs) if c.waves is not None else None
+                out.add("voltage", ring.v_peak, c.id, steady=ring.v_steady, dominant=ring.dominant,
+                        detail="the rectifier's peak reverse voltage"
+                        + (f"; RMS current {i_rms * 1e3:.3g} mA (RC charging at both edges)" if i_rms else ""))
+                if i_rms is not None and part.ripple_current is not None:
+                    out.add("ripple_current", i_rms, c.id, rating=part.ripple_current,
+                            detail="RC charging at both edges: ΔV·√(fs·Cs/Rs)")
+            elif part.category == "resistor":
+                out.add("voltage", ring.v_peak, c.id, detail="at most the rectifier's peak (capacitor discharged)")
+                if c.waves is not None:
+                    p = ringing.snubber_resistor_power(cs, swing, c.fsw, ring.ring_energy_j)
+                    ctx.add_loss(c.id, ref, p)
+                    out.add("power", p, c.id, temperature=c.t_amb,
+                            detail=f"Cs·V²·fs + ring energy·fs = {cs * swing ** 2 * c.fsw:.3g} W + "
+                                   f"{ring.ring_energy_j * c.fsw:.3g} W")
+        items += out.items
+    return items
 
 
 def clamp_items(refs, parts: dict[str, Any], role, ctx: PartContext, policy) -> list[StressItem]:
@@ -646,12 +774,12 @@ def extra_items(extra, parts: dict[str, Any], ctx: PartContext, policy) -> list[
 
 
 #: Role name (before any ":output") → builder.  Builders taking a parts dict handle groups.
-SINGLE: dict[str, Callable] = {"switch": switch_items, "rectifier": diode_items, "clamp_diode": diode_items,
+SINGLE: dict[str, Callable] = {"switch": switch_items, "rectifier": rectifier_items, "clamp_diode": diode_items,
                                "current_sense": sense_items, "transformer": transformer_items,
                                "gate_resistor": gate_resistor_items}
 GROUP: dict[str, Callable] = {"clamp": clamp_items, "input_cap": bank_items, "output_cap": bank_items,
                               "feedback_divider": divider_items, "optocoupler": feedback_items,
-                              "shunt_reference": feedback_items}
+                              "shunt_reference": feedback_items, "snubber": snubber_items}
 
 
 def role_items(role: str, refs: Sequence[str], parts: dict[str, Any], ctx: PartContext, policy) -> list[StressItem]:

@@ -238,12 +238,14 @@ def _prepare(design: Design, bom_data: Bom, cat, pins: dict[str, str], policy: P
     gate, switch = assignment.roles.get("gate_resistor"), assignment.roles.get("switch")
     r_gate = assignment.records[gate[0]].resistance if gate else None
     switch_part = assignment.records[switch[0]] if switch else None
+    rectifiers, snubbers = _rectifiers_and_snubbers(design, assignment)
     eta_at: dict[str, float] = {}
     for n_pass in range(1, EFFICIENCY_PASSES + 1):
         stress_result, corners = _corners(design, eta_at=eta_at)
         extra_corners, tolerance_notes = _tolerance_corners(design, eta_at)
         ctx = partstress.PartContext(design, corners + extra_corners, mission=mission, efficiency_factors=eta_at,
-                                     gate_resistance=r_gate, switch_part=switch_part)
+                                     gate_resistance=r_gate, switch_part=switch_part, rectifier_parts=rectifiers,
+                                     snubbers=snubbers)
         items = _part_items(design, assignment, ctx, policy)
         lower = _efficiency_factors(design, stress_result, ctx)
         settled = all(abs(lower.get(k, 1.0) - eta_at.get(k, 1.0)) < 1e-3 for k in set(lower) | set(eta_at))
@@ -269,6 +271,25 @@ def _stated_defaults(design: Design) -> set[str]:
     out.add("diode peak current checked against the repetitive peak rating i_frm; the surge rating ifsm is for "
             "inrush and start-up only")
     return out
+
+
+def _rectifiers_and_snubbers(design: Design, assignment) -> tuple[dict[str, Any], dict[str, tuple]]:
+    """Output name → rectifier record, and → (Rs [Ω], Cs [F]) of the RC snubber across it."""
+    def output_of(role: str) -> str:
+        return role.split(":")[1] if ":" in role else design.outputs[0].name
+
+    rectifiers, snubbers = {}, {}
+    for role, refs in assignment.roles.items():
+        base = role.split(":")[0]
+        records = [assignment.records[r] for r in refs]
+        if base == "rectifier" and records:
+            rectifiers[output_of(role)] = records[0]
+        elif base == "snubber":
+            resistors = [p.resistance for p in records if p.category == "resistor" and p.resistance]
+            caps = [p.capacitance for p in records if p.category == "capacitor" and p.capacitance]
+            snubbers[output_of(role)] = (sum(resistors) if len(resistors) == 1 else None,
+                                         sum(caps) if caps else None)
+    return rectifiers, snubbers
 
 
 def _efficiency_factors(design: Design, stress_result, ctx) -> dict[str, float]:
@@ -357,6 +378,10 @@ def check(design_path: str | Path | Design, *, bom: str | Path | None = None, po
             prep.design, prep.matches, prep.assignment, prep.stress_result, prep.ctx, prep.items, prep.records_by_pn)
         vf_notes = prep.notes
         findings = evaluate(items, pol, waivers=waivers, today=today)
+        for f in findings:  # the classic snubber sizing beside a rectifier that fails on its ring
+            hint = ctx.snubber_hints.get(f.refs[0]) if f.refs else None
+            if hint and f.parameter == "voltage" and f.status in ("fail", "warn"):
+                f.detail = f"{f.detail}; {hint}"
         assigned = {r for refs in assignment.roles.values() for r in refs}
         extra_refs = {r for e in design.extra_stress for r in e.refs}
         findings += assignment.findings + coverage.line_findings(matches, assigned, extra_refs)

@@ -20,7 +20,7 @@ ROWS = (
     ("C3-C5", "4.7uF", "MLCC 4.7uF 50V X7R input", "1210", 3, "CC-X7R-475-50-1210"),
     ("C6, C7", "4.7uF", "MLCC 4.7uF 50V X7R +18V output", "1210", 2, "cc-x7r-475-50-1210"),
     ("C8, C9", "10uF", "Ceramic cap 10u 25V X7R -4V output", "1206", 2, ""),
-    ("D1", "60V 1A", "Schottky 60V 1A +18V rectifier", "SOD-123F", 1, ""),
+    ("D1", "100V 1A", "Schottky 100V 1A +18V rectifier", "SOD-123F", 1, ""),
     ("D2", "40V 1A", "Schottky 40V 1A -4V rectifier", "SOD-123F", 1, "DS-040-1A-SOD123F"),
     ("D3", "27V", "Zener 27V 1W primary clamp", "SMA", 1, "ZC-27V-1W-SMA-TR"),
     ("D4", "100V", "Ultrafast diode 100V 1A clamp blocking", "SMA", 1, "DU-100-1A-SMA"),
@@ -31,6 +31,8 @@ ROWS = (
     ("R4", "10k", "Resistor 10k 1% preload, positive rail", "0805", 1, ""),
     ("R5", "2k2", "Resistor 2k2 1% preload, negative rail", "0603", 1, ""),
     ("R6", "10R", "Resistor 10R 1% gate", "0603", 1, ""),
+    ("R7", "120R", "Resistor 120R 1% 1206 snubber across D1", "1206", 1, "RS-120R-F-1206"),
+    ("C10", "220pF", "MLCC 220pF 250V C0G snubber across D1", "0805", 1, "CC-C0G-221-250-0805"),
     ("T1", "20uH", "Gate-drive transformer EP13 27:37:9 reinforced", "EP13", 1, "TX-EP13-20U-0R73"),
 )
 
