@@ -11,6 +11,10 @@ last 20 periods.  The engine gets the settled Vout, Iout = Vout/R, the efficienc
 effective rectifier drop P_rect/Iout, and must reproduce the rest: currents within 3 % (5 % where
 leakage shapes the secondary current), voltages within 2 %, the same mode.  One more case is driven at
 the boundary; there the engine runs in boundary mode and must find the driven frequency within 2 %.
+
+The RCD cases fill ``rcd_clamp.cir`` instead: the same power stage with a real RCD clamp (diode with
+Rs = 10 mΩ into Cc ∥ Rc returned to Vin), at a rated and a heavier, current-limit-like point in CCM and
+DCM.  The engine gets Rc and Cc and must find the settled clamp voltage and the drain peak within 5 %.
 """
 
 from __future__ import annotations
@@ -152,3 +156,94 @@ def test_near_boundary_cases_are_near_the_boundary(simulated):
         d = vr / (vin + vr)
         pin_crit = (vin * d) ** 2 / (2 * lm * fsw)  # reference note sec. 1.1 [D]
         assert 0.8 < meas["pin"] / pin_crit < 1.2
+
+
+# --------------------------------------------------------------------------------------------
+# RCD clamp: the clamp voltage follows from Rc (flyback-equations.md §2.1)
+# --------------------------------------------------------------------------------------------
+
+RCD_TEMPLATE = TEMPLATE.parent / "rcd_clamp.cir"
+
+#: name: (vin [V], n, lm [H], llk [H], rc [Ω], cc [F], vc initial condition [V], fsw [Hz], duty, rload [Ω],
+#:        vf [V], cout [F], esr [Ω], vout initial condition [V], periods simulated, expected mode)
+#: "full" is a rated-load point, "heavy" a current-limit-like one (a larger on-time into a lower load,
+#: so a higher peak current with the same Rc); rcd_dcm_heavy has a small Cc (ripple ~14 % of Vc).
+RCD_CASES = {
+    "rcd_ccm_full": (24.0, 4.0, 400e-6, 8e-6, 2.2e3, 470e-9, 40.0, 100e3, 0.45, 2.5, 0.5, 100e-6, 0.02, 4.05, 400, "CCM"),
+    "rcd_ccm_heavy": (24.0, 4.0, 400e-6, 8e-6, 2.2e3, 470e-9, 60.0, 100e3, 0.50, 1.6, 0.5, 100e-6, 0.02, 4.6, 400, "CCM"),
+    "rcd_dcm_full": (24.0, 4.0, 20e-6, 1.5e-6, 1.5e3, 470e-9, 45.0, 100e3, 0.25, 5.0, 0.5, 47e-6, 0.02, 5.65, 300, "DCM"),
+    "rcd_dcm_heavy": (24.0, 4.0, 20e-6, 1.5e-6, 1.5e3, 47e-9, 55.0, 100e3, 0.35, 2.5, 0.5, 47e-6, 0.02, 5.9, 300, "DCM"),
+}
+RCD_DIODE_RS = 10e-3  # the clamp diode's series resistance in the netlist [Ω]
+
+
+def simulate_rcd(ngspice: str, case: tuple, workdir: Path, steps_per_period: int = 400) -> dict[str, float]:
+    """Run one RCD-clamp case of ``rcd_clamp.cir`` in ``ngspice -b`` and return its .meas results."""
+    vin, n, lm, llk, rc, cc, vc_ic, fsw, duty, rload, vf, cout, esr, v_ic, periods, _ = case
+    period = 1.0 / fsw
+    tstop = periods * period
+    t_last = tstop - period
+    params = {
+        "title": f"Vin={vin} n={n} Lm={lm} Llk={llk} Rc={rc} Cc={cc} f={fsw} D={duty} R={rload}", "vin": vin, "lm": lm,
+        "ls": lm / n**2, "n": n, "ton": duty * period, "period": period, "ron": 5e-3, "vf": vf, "cout": cout, "esr": esr,
+        "rload": rload, "vout_ic": v_ic, "rs_cl": RCD_DIODE_RS, "cc": cc, "rc": rc, "vc_ic": vc_ic,
+        "llk_line": f"Llk p1 p2 {llk}", "step": period / steps_per_period, "tstop": tstop,
+        "tstart_save": tstop - 60 * period, "t0": tstop - 20 * period, "t0_early": tstop - 60 * period,
+        "t1_early": tstop - 40 * period, "t_on0": t_last + 0.5 * duty * period, "t_on1": t_last + 0.95 * duty * period,
+    }
+    netlist = workdir / "flyback_rcd.cir"
+    netlist.write_text(RCD_TEMPLATE.read_text().format(**params))
+    run = subprocess.run([ngspice, "-b", str(netlist)], capture_output=True, text=True, timeout=300, cwd=workdir,
+                         check=False)
+    meas = {m.group(1): float(m.group(2)) for m in re.finditer(r"^(\w+)\s*=\s*([-+0-9.eE]+)", run.stdout, re.MULTILINE)}
+    missing = {"vout", "pin", "vds_pk", "vc", "vc_early", "vc_max", "vc_min", "p_clamp"} - set(meas)
+    assert not missing, f"ngspice did not report {missing}:\n{run.stdout[-2000:]}\n{run.stderr[-2000:]}"
+    return meas
+
+
+@pytest.fixture(scope="module")
+def simulated_rcd(tmp_path_factory):
+    ngspice = _ngspice()
+    return {name: simulate_rcd(ngspice, case, tmp_path_factory.mktemp(name)) for name, case in RCD_CASES.items()}
+
+
+def engine_rcd(case: tuple, meas: dict[str, float]) -> dict[str, float]:
+    """The engine with the clamp given by its resistor and capacitor, fed the settled Vout, Iout, eta and Vf.
+
+    No forward recovery and no loop inductance (the netlist has neither: its clamp diode has no charge
+    storage and the loop no stray inductance), so the engine's drain peak is Vin + Vc + ΔVc/2.
+    """
+    vin, n, lm, llk, rc, cc, _vc_ic, fsw, _duty, rload, *_ = case
+    vout = meas["vout"]
+    iout = vout / rload
+    op = OperatingPoints.create(
+        vin=vin, vout=[vout], iout=[iout], vf=[meas["p_rect"] / meas["d_avg"]], n=[n], lm=lm, llk=llk, fsw=fsw,
+        eta=vout * iout / meas["pin"], rclamp=rc, cclamp=cc)
+    return {k: float(np.ravel(v)[0]) for k, v in solve(op).items()}
+
+
+@pytest.mark.ngspice
+@pytest.mark.parametrize("name", list(RCD_CASES))
+def test_rcd_clamp_matches_simulation(simulated_rcd, name):
+    # Netlist (tests/reference/flyback/rcd_clamp.cir): the open-loop power stage of open_loop.cir with a
+    # real RCD clamp, a near-ideal diode with Rs = 10 mΩ from the drain into Cc ∥ Rc returned to Vin.
+    case, meas = RCD_CASES[name], simulated_rcd[name]
+    assert meas["vout"] == pytest.approx(meas["vout_early"], rel=2e-3), "the output has not settled"
+    assert meas["vc"] == pytest.approx(meas["vc_early"], rel=2e-3), "the clamp capacitor has not settled"
+    e = engine_rcd(case, meas)
+    assert MODE_NAMES[int(e["mode"])] == case[-1]
+    assert e["clamp_vc"] == pytest.approx(meas["vc"], rel=0.05)  # settled mean clamp voltage
+    assert e["sw_vpk"] == pytest.approx(meas["vds_pk"], rel=0.05)  # drain peak = Vin + Vc + ΔVc/2
+    assert e["clamp_ripple"] == pytest.approx(meas["vc_max"] - meas["vc_min"], rel=0.25)  # crude ΔVc
+    assert e["p_clamp"] == pytest.approx(meas["p_clamp"], rel=0.05)  # Vc²/Rc
+
+
+@pytest.mark.ngspice
+def test_rcd_clamp_rises_at_the_heavy_point(simulated_rcd):
+    # The same Rc settles higher at the heavier point, in the simulation and in the engine (Vc grows with Ipk²·fs).
+    for mode in ("ccm", "dcm"):
+        full, heavy = f"rcd_{mode}_full", f"rcd_{mode}_heavy"
+        assert simulated_rcd[heavy]["vc"] > 1.2 * simulated_rcd[full]["vc"]
+        e_full = engine_rcd(RCD_CASES[full], simulated_rcd[full])
+        e_heavy = engine_rcd(RCD_CASES[heavy], simulated_rcd[heavy])
+        assert e_heavy["clamp_vc"] > 1.2 * e_full["clamp_vc"]
