@@ -236,10 +236,6 @@ def _solve(op: OperatingPoints) -> dict[str, np.ndarray]:
             ipk = np.where(bcm, ipk_b, np.sqrt(2.0 * pin / (lp * fs)))
         else:
             fs_clamped = bcm = np.zeros(vin.shape, dtype=bool)
-        if any_r:  # Vc²/Rc = ½·Llk·Ipk²·fs·Vc/(Vc − Vr) (sec. 2.1) [D]
-            vc = np.where(by_r, rcd_clamp_voltage(op.rclamp, llk, ipk, fs, vr), vc_fixed)
-        gamma = np.where(has_lk, llk / (vc - vr), 0.0)  # ts per ampere of Ipk [s/A]
-        beta = 1.0 - vr * gamma / lm  # share of the magnetizing current left after ts [-]
         period = 1.0 / fs
         dip = vin_m * d_ccm * period / lm  # = Vin·D/(Lp·fs)
         # CCM valley from the switch charge per cycle Iin·T = tc·Iv/2 + (Iv + dIp/2)·D_ccm·T (sec. 1.2 with tc) [D]
@@ -247,6 +243,10 @@ def _solve(op: OperatingPoints) -> dict[str, np.ndarray]:
         dt_ccm = d_ccm * period
         iv = np.where(ccm, 2.0 * r_ccm / (dt_ccm + np.sqrt(dt_ccm * dt_ccm + 2.0 * lam * r_ccm)), 0.0)
         ipk = np.where(ccm, iv + dip, ipk)
+        if any_r:  # Vc²/Rc = ½·Llk·Ipk²·fs·Vc/(Vc − Vr) (sec. 2.1) [D]
+            vc = np.where(by_r, rcd_clamp_voltage(op.rclamp, llk, ipk, fs, vr), vc_fixed)
+        gamma = np.where(has_lk, llk / (vc - vr), 0.0)  # ts per ampere of Ipk [s/A]
+        beta = 1.0 - vr * gamma / lm  # share of the magnetizing current left after ts [-]
         tc = lam * iv
         ton = np.where(ccm, dt_ccm + tc, lp * ipk / vin)
         duty = ton * fs
