@@ -24,6 +24,7 @@ from .stress import feedback as fb_model
 from .stress import ringing
 from .stress import semiconductors as semi
 from .stress.waveform import PiecewiseLinear
+from .units import format_quantity
 
 #: Gate drive assumed when the design file gives none: the driver's peak sink/source current [A]
 #: and drive voltage [V].  A small flyback controller's driver is commonly rated 0.3-1 A (common
@@ -146,7 +147,7 @@ def switch_items(refs, part, role, ctx: PartContext, policy) -> list[StressItem]
     ig_on, ig_off, vgs, how = gate_drive(d.feedback, ctx.gate_resistance)
     ctx.assumptions.add(f"switch gate drive: {how}")
     for c in ctx.corners:
-        out.add("voltage", _r(c, role, "v_peak"), c.id)
+        _drain_voltage(out, part, c, role, ctx)
         if c.waves is None:
             continue
         i_pk, i_rms = _r(c, role, "i_peak"), _r(c, role, "i_rms")
@@ -163,7 +164,8 @@ def switch_items(refs, part, role, ctx: PartContext, policy) -> list[StressItem]
         if part.qg is None:
             notes.append("no gate charge in the catalog: switching overlap loss not modelled")
         th = semi.mosfet_losses(
-            i_rms, i_pk, i_valley, _r(c, role, "v_peak") or c.vin + vr, c.fsw, c.mode.lower(),
+            i_rms, i_pk, i_valley, _r(c, role, "v_clamp_level") or _r(c, role, "v_peak") or c.vin + vr, c.fsw,
+            c.mode.lower(),
             rds25=part.rds_on, rds125=part.rds_on_125, coss=part.coss or 0.0, qg=part.qg or 0.0,
             gate_drive_current_a=ig_off, gate_drive_current_on_a=ig_on, vgs=vgs, t_amb_c=c.t_amb, rth_ja=part.rth_ja,
             valley_v=max(0.0, c.vin - vr) if c.mode == "BCM" else None, v_in=c.vin,
@@ -176,6 +178,37 @@ def switch_items(refs, part, role, ctx: PartContext, policy) -> list[StressItem]
                 detail=detail or f"P = {th.p_total:.3g} W (conduction {th.p_cond:.3g} W at Rds {th.rds_at_tj:.3g} Ω)")
         out.add("power", th.p_total, c.id, rating=None)
     return out.items
+
+
+def _drain_voltage(out: _Items, part, c: Corner, role: str, ctx: PartContext) -> None:
+    """The drain peak: the clamp level plus the forward-recovery and clamp-loop overshoots, with
+    the steady level and the largest contribution named; above the rating, avalanche energy."""
+    from .stress.clamp import avalanche_energy
+
+    v_peak = _r(c, role, "v_peak")
+    steady = _r(c, role, "v_clamp_level") or _r(c, role, "v_plateau")
+    parts = {"clamp level": steady or 0.0, "forward recovery": _r(c, role, "v_overshoot_fr") or 0.0,
+             "clamp-loop inductance": _r(c, role, "v_overshoot_loop") or 0.0}
+    extra = {k: v for k, v in parts.items() if k != "clamp level" and v > 0}
+    dominant = max(extra, key=extra.get) if extra else "clamp level"
+    detail = (f"Vin + clamp level {steady:.4g} V" + "".join(f" + {k} {v:.3g} V" for k, v in extra.items())
+              if steady is not None and v_peak is not None else "")
+    vds = getattr(part, "vds_max", None)
+    if v_peak is not None and vds and v_peak > vds:
+        d = ctx.design
+        ipk = _r(c, role, "i_peak") or _r(c, "transformer", "i_peak")
+        vr = _r(c, role, "v_reflected") or _reflected(d)
+        if ipk and d.transformer.llk > 0:
+            energy = float(avalanche_energy(d.transformer.llk, ipk, vds - c.vin, vr))
+            rating = part.e_ar if part.e_ar is not None else part.e_as
+            which = "repetitive e_ar" if part.e_ar is not None else "single-pulse e_as" if part.e_as is not None else None
+            detail += (f"; AVALANCHE: the drain would break down at {vds:g} V every cycle, "
+                       + (f"{format_quantity(energy, 'J')} per event" if math.isfinite(energy)
+                          else "without end (V_BR ≤ Vin + Vr)")
+                       + (f" against the {which} rating {format_quantity(rating, 'J')}" if which else
+                          " (no avalanche rating in the catalog)"))
+    out.add("voltage", v_peak, c.id, steady=steady if extra else None, dominant=dominant if extra else "",
+            detail=detail)
 
 
 def _number(value: Any) -> float | None:
@@ -275,6 +308,8 @@ def rectifier_ring(ctx: PartContext, c: Corner, j: int, part, *, snubber: bool =
     if valley_a is None:
         valley_a = _secondary_valley(ctx, c, o.name)
     rs, cs = ctx.snubbers.get(o.name, (None, None)) if snubber else (None, None)
+    if rs is None or cs is None:  # an incomplete snubber damps nothing (its parts say why)
+        rs = cs = None
     qrr = part.qrr
     i_test = part.vf_current or part.if_avg
     if qrr is not None and i_test and valley_a < i_test:

@@ -97,11 +97,11 @@ def _not_fitted_c7(bom: str) -> str:
 
 TRAPS = [
     Trap("obsolete-part", "remote_io_24v", 1, "Q1", "catalog status is obsolete",
-         catalog={"SW-N100-R040-D33": {"status": "obsolete"}}),
+         catalog={"SW-N150-R050-D56": {"status": "obsolete"}}),
     Trap("restricted-part", "remote_io_24v", 1, "D1", "catalog status is restricted",
          catalog={"DS-045-10A-DPK": {"status": "restricted"}}),
-    Trap("snubber-role-unmodelled", "remote_io_24v", 1, "R7", "has no stress model",
-         design=_sub('transformer = "T1"\n', 'transformer = "T1"\nsnubber = "R7"\n')),
+    Trap("snubber-without-capacitor", "remote_io_24v", 1, "R8", "one resistor",
+         design=_sub('snubber = ["R8", "C10"]', 'snubber = ["R8"]')),
     Trap("resistor-as-output-cap", "remote_io_24v", 2, "R5", "role output_cap takes capacitor",
          design=_sub('output_cap = ["C5", "C6", "C7"]', 'output_cap = ["C5", "C6", "C7", "R5"]')),
     Trap("inductor-as-clamp", "remote_io_24v", 2, "L1", "role clamp takes",

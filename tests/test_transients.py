@@ -108,3 +108,21 @@ def test_default_secondary_leakage_is_stated(catalog):
     result = check(SAMPLES / "battery_monitor_48v" / "design.toml", catalog=catalog, today=TODAY)
     (text,) = [a for a in result.assumptions if a.startswith("output 15V: secondary leakage")]
     assert f"{ringing.default_secondary_leakage(3e-6, 2.0) * 1e9:.3g} nH" in text
+
+
+def test_drain_peak_parts_and_avalanche(catalog):
+    """sic_gate_drive with its former 60 V switch pinned: the drain peak (Vin + Zener level at
+    tolerance and temperature + forward recovery + clamp-loop ring) passes 60 V, so the finding
+    says avalanche, with E = ½·Llk·Ipk²·V_BR/(V_BR − Vr) per event against the catalog's e_ar."""
+    from partcheck.stress.clamp import avalanche_energy
+
+    result = check(SAMPLES / "sic_gate_drive" / "design.toml", catalog=catalog, today=TODAY,
+                   pins={"Q1": "SW-N060-R030-D33"})
+    q1 = _finding(result, "Q1", "voltage")
+    assert q1["status"] == "fail" and q1["stress"] > 60.0
+    assert q1["steady"] < q1["stress"] and q1["dominant"] in ("clamp-loop inductance", "forward recovery")
+    assert "AVALANCHE" in q1["detail"] and "repetitive e_ar rating 3.6 mJ" in q1["detail"]
+    corner = next(c for c in result.corners if c["id"] == q1["corner"].split("@")[0])
+    energy = avalanche_energy(0.8e-6, corner["roles"]["switch"]["i_peak"], 60.0 - corner["vin"],
+                              corner["roles"]["switch"]["v_reflected"])
+    assert energy > 0 and " per event" in q1["detail"]

@@ -24,7 +24,7 @@ ROWS = (
     ("D2", "40V 1A", "Schottky 40V 1A -4V rectifier", "SOD-123F", 1, "DS-040-1A-SOD123F"),
     ("D3", "27V", "Zener 27V 1W primary clamp", "SMA", 1, "ZC-27V-1W-SMA-TR"),
     ("D4", "100V", "Ultrafast diode 100V 1A clamp blocking", "SMA", 1, "DU-100-1A-SMA"),
-    ("Q1", "60V", "N-channel MOSFET 60V 30mOhm", "DFN3.3x3.3", 1, "SW-N060-R030-D33"),
+    ("Q1", "80V", "N-channel MOSFET 80V 24mOhm", "DFN3.3x3.3", 1, "SW-N080-R024-D33"),
     ("R1", "0R33", "Current sense resistor 0.33R 1% 0.5W", "1206", 1, "RC-R33-0W5-1206"),
     ("R2", "47k", "Resistor 47k 1% sense divider top", "0603", 1, ""),
     ("R3", "10k", "Resistor 10k 0.1% sense divider bottom", "0603", 1, "RT-10K0-B-0603"),
