@@ -267,9 +267,13 @@ def diode_items(refs, part, role, ctx: PartContext, policy, *, engine_role: str 
             missing = ", ".join(n for n in ("vf", "rth_ja") if getattr(part, n) is None) or "current"
             out.add("temperature", None, c.id, detail=f"no {missing} in the catalog: junction temperature not computed")
             continue
+        # The clamp diode's current falls to zero softly at the end of the leakage reset (role
+        # stress i_off = 0): no reverse-recovery loss, whatever the converter's mode.
+        soft_off = role_key == "clamp_diode" and (_r(c, role_key, "i_off") or 0.0) == 0.0
         th = semi.rectifier_loss(
-            i_avg, i_rms or i_avg, part.vf, part.vf_current, part.subtype or "standard", qrr=part.qrr, trr=part.trr,
-            v_reverse=_r(c, role_key, "v_reverse") or 0.0, fsw=c.fsw, mode=c.mode.lower(), t_amb_c=c.t_amb,
+            i_avg, i_rms or i_avg, part.vf, part.vf_current, part.subtype or "standard",
+            qrr=part.qrr, trr=part.trr,
+            v_reverse=_r(c, role_key, "v_reverse") or 0.0, fsw=c.fsw, mode="dcm" if soft_off else c.mode.lower(), t_amb_c=c.t_amb,
             rth_ja=part.rth_ja)
         ctx.add_loss(c.id, out.refs[0], th.p_total)
         out.add("temperature", th.tj, c.id, detail=f"P = {th.p_total:.3g} W")

@@ -407,7 +407,7 @@ def check(design_path: str | Path | Design, *, bom: str | Path | None = None, po
         bom_lines=[m.to_dict() for m in matches],
         corners=[c.to_dict() for c in stress_result.corners],
         part_stresses=_part_stresses(items),
-        waveforms=_waveforms(design, stress_result),
+        waveforms={**_waveforms(design, stress_result), **_ring_waveforms(findings, assignment, ctx)},
         sweep=_sweep(design, findings, assignment),
         bank_split=ctx.bank_splits,
         policy_rules=effective_rules_table(pol),
@@ -544,6 +544,27 @@ def _waveforms(design, stress_result) -> dict:
         w = waves[key]
         out[key] = {"corner": worst.id, "t": [float(t) for t in w.t], "y": [float(y) for y in w.y],
                     "label": f"{key} current at {worst.id}", "unit": "A"}
+    return out
+
+
+def _ring_waveforms(findings, assignment, ctx) -> dict:
+    """Each rectifier's reverse voltage after the switch turns on, at its worst corner (the ring)."""
+    out = {}
+    by_id = {c.id: c for c in ctx.corners}
+    for f in findings:
+        if f.parameter != "voltage" or not f.role.startswith("rectifier") or f.measured or len(f.refs) != 1:
+            continue
+        corner, part = by_id.get(f.corner), assignment.records.get(f.refs[0])
+        if corner is None or part is None:
+            continue
+        j = partstress._output_index(ctx.design, f.role)
+        ring = partstress.rectifier_ring(partstress.PartContext(ctx.design, ctx.corners, snubbers=ctx.snubbers), corner,
+                                         j, part)
+        if not ring.t_s:
+            continue
+        out[f"rectifier_ring:{ctx.design.outputs[j].name}"] = _clean({
+            "corner": f.corner, "t": list(ring.t_s), "y": list(ring.v_t), "unit": "V",
+            "label": f"{f.refs[0]} reverse voltage after turn-on: steady {ring.v_steady:.3g} V, peak {ring.v_peak:.3g} V"})
     return out
 
 

@@ -102,6 +102,9 @@ def test_report_shows_steady_and_peak(catalog):
     result = check(SAMPLES / "sic_gate_drive" / "design.toml", catalog=catalog, today=TODAY)
     html = render_html(result)
     assert "snubbed ring" in html and "steady" in html
+    ring = result.waveforms["rectifier_ring:+18V"]
+    assert ring["unit"] == "V" and max(ring["y"]) == pytest.approx(_finding(result, "D1", "voltage")["stress"], rel=0.01)
+    assert "D1 reverse voltage after turn-on" in html
 
 
 def test_default_secondary_leakage_is_stated(catalog):

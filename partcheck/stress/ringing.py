@@ -170,6 +170,10 @@ class RingResult:
     t_peak_s: float = 0.0
     v_step: float = 0.0
     i_initial_a: float = 0.0
+    #: The reverse voltage after the step, sampled over the solved window (times [s], volts [V]);
+    #: for plots of the ring at the worst corner.
+    t_s: tuple[float, ...] = ()
+    v_t: tuple[float, ...] = ()
 
 
 def _state_matrix(l_h: float, c_f: float, r_ohm: float, rs_ohm: float | None, cs_f: float | None) -> np.ndarray:
@@ -389,7 +393,7 @@ def rectifier_ring(
     return RingResult(
         v_steady=v_final, v_peak=float(v_final + v_peak), overshoot_ratio=float(overshoot), f_ring_hz=f_ring, z0_ohm=z0,
         zeta=float(_zeta(sol.eigenvalues)), ring_energy_j=energy, dominant=dominant, t_peak_s=float(t_peak), v_step=v_step,
-        i_initial_a=i0)
+        i_initial_a=i0, t_s=tuple(float(x) for x in t[::20]), v_t=tuple(float(v_final + x) for x in v[::20]))
 
 
 # --------------------------------------------------------------------------------------------
