@@ -605,13 +605,17 @@ def _print_findings(result) -> None:
     if shown:
         out.print(table)
     for f in shown:
+        if f.get("steady") is not None and f["status"] in ("fail", "warn"):
+            kind = f.get("unit")
+            out.print(Text(f"  {', '.join(f['refs'])} {f['parameter']}: peak {format_quantity(f['stress'], kind)} "
+                           f"over steady {format_quantity(f['steady'], kind)}, set by {f.get('dominant') or '—'}"))
         if f["status"] == "fail" and f.get("alternatives"):
             alts = ", ".join(f"{a['part_number']} (margin {a['min_margin']:.0%})" for a in f["alternatives"])
             out.print(Text(f"  order instead of {', '.join(f['refs'])} ({f['part_number']}): {alts}"))
         elif f["status"] in ("not_assessed", "unmatched") and f.get("detail"):
             out.print(Text(f"  {', '.join(f['refs'])}: {f['detail']}"))
     for warning in result.bom_warnings:
-        out.print(Text(f"warning: {warning}", style="yellow"))
+        out.print(Text(f"bom reader: {warning}", style="yellow"))
 
 
 def _print_verdict(result) -> None:
