@@ -583,7 +583,7 @@ def policy_validate(
 # ---- check, report and demo -------------------------------------------------------------------
 
 _STATUS_STYLE = {"fail": "bold red", "unmatched": "red", "not_assessed": "magenta", "warn": "yellow",
-                 "waived": "cyan", "info": "dim", "pass": "green"}
+                 "waived": "cyan", "out_of_scope": "blue", "info": "dim", "pass": "green"}
 
 
 def _print_findings(result) -> None:

@@ -125,13 +125,56 @@ def assign(design: Any, matches: list, records_by_pn: dict[str, Any]) -> Assignm
     return Assignment(roles, records, line_of, findings)
 
 
-def line_findings(matches: list, assigned_refs: set[str], extra_refs: set[str]) -> list[Finding]:
+def out_of_scope_refs(design: Any) -> dict[str, str]:
+    """Reference (upper case) → the reason it is declared outside the check; refuses a reference
+    that is also mapped to a role or given stresses (the design would contradict itself)."""
+    scope = {ref.upper(): o.reason for o in design.out_of_scope for ref in o.refs}
+    for role, refs in design.roles.items():
+        for ref in refs:
+            if ref.upper() in scope:
+                raise DesignError(f"{ref} is mapped to role {role} and declared out of scope: choose one",
+                                  file=design.file, key="out_of_scope")
+    for extra in design.extra_stress:
+        for ref in extra.refs:
+            if ref.upper() in scope:
+                raise DesignError(f"{ref} has an [[extra_stress]] and is declared out of scope: choose one",
+                                  file=design.file, key="out_of_scope")
+    return scope
+
+
+def out_of_scope_findings(matches: list, scope: dict[str, str]) -> list[Finding]:
+    """One ``out_of_scope`` finding per BOM line whose references the design declares outside the
+    check (counted and listed apart, never a pass); a declared reference the BOM lacks is unmatched."""
+    findings, seen = [], set()
+    for m in matches:
+        mine = [r for r in m.refs if r.upper() in scope]
+        if not mine or m.status == "not_fitted":
+            seen |= {r.upper() for r in mine}
+            continue
+        seen |= {r.upper() for r in mine}
+        reasons = sorted({scope[r.upper()] for r in mine})
+        findings.append(Finding(
+            refs=tuple(mine), part_number=m.part_number or "", role="", parameter="", stress=None, rating=None,
+            limit=None, utilization=None, margin=None, corner="", status="out_of_scope", rule="none", source="",
+            detail=f"declared out of scope in the design file: {'; '.join(reasons)} (BOM line {m.line}: {m.text})",
+            category=m.category or ""))
+    for ref in sorted(set(scope) - seen):
+        findings.append(unmatched_finding([ref], reason=f"{ref} is declared out of scope but is not on the BOM"))
+    return findings
+
+
+def line_findings(matches: list, assigned_refs: set[str], extra_refs: set[str],
+                  scope: dict[str, str] | None = None) -> list[Finding]:
     """Unmatched lines, lines without references, references on two lines, and fitted matched
-    parts that neither a role nor ``[[extra_stress]]`` covers."""
+    parts that neither a role nor ``[[extra_stress]]`` covers (references declared out of scope
+    are left to :func:`out_of_scope_findings`)."""
     findings = []
     first_line: dict[str, int] = {}
+    scope = scope or {}
     for m in matches:
         if m.status == "not_fitted":
+            continue
+        if m.refs and all(r.upper() in scope for r in m.refs):
             continue
         for ref in m.refs:
             key = ref.upper()
@@ -151,7 +194,7 @@ def line_findings(matches: list, assigned_refs: set[str], extra_refs: set[str]) 
             findings.append(unmatched_finding(m.refs, part_number=m.part_number or "", reason=reason,
                                               category=m.category or ""))
             continue
-        left = [r for r in m.refs if r not in assigned_refs and r not in extra_refs]
+        left = [r for r in m.refs if r not in assigned_refs and r not in extra_refs and r.upper() not in scope]
         if left:
             findings.append(not_assessed_finding(
                 left, m.part_number or "", "", "no stress model covers this part and no [[extra_stress]] gives one: "

@@ -152,6 +152,14 @@ class ExtraStress:
 
 
 @dataclass(frozen=True)
+class OutOfScope:
+    """One ``[[out_of_scope]]``: references the design declares outside this check, with the reason."""
+
+    refs: tuple[str, ...]
+    reason: str
+
+
+@dataclass(frozen=True)
 class Measured:
     """One ``[[measured]]``: a bench-measured stress that replaces the model's for one reference."""
 
@@ -195,6 +203,7 @@ class Design:
     feedback: dict[str, float | str] = field(default_factory=dict)
     mission: tuple[MissionPoint, ...] = ()  # empty when the file has no [[mission]]
     measured: tuple[Measured, ...] = ()  # bench figures that replace the model's
+    out_of_scope: tuple[OutOfScope, ...] = ()  # references declared outside the check
     raw: dict[str, Any] = field(default_factory=dict)
 
     @property
@@ -319,7 +328,7 @@ def _unknown(key: str, allowed: tuple[str, ...]) -> str:
 
 _TOP = ("name", "bom", "policy", "converter", "input", "output", "transformer", "clamp", "environment",
         "switch_node", "roles", "pins", "extra_stress", "tolerances", "requirements", "waiver", "feedback",
-        "mission", "measured")
+        "mission", "measured", "out_of_scope")
 
 
 def design_from_dict(data: dict[str, Any], *, file: str | Path | None = None) -> Design:
@@ -366,6 +375,7 @@ def design_from_dict(data: dict[str, Any], *, file: str | Path | None = None) ->
         feedback=_feedback(data.get("feedback", {}), path),
         mission=_mission(data["mission"], path, inp, environment) if "mission" in data else (),
         measured=_measured(data.get("measured", []), path),
+        out_of_scope=_out_of_scope(data.get("out_of_scope", []), path),
         raw=data,
     )
 
@@ -629,6 +639,29 @@ def _extra_stress(data: Any, path: Path | None) -> tuple[ExtraStress, ...]:
             raise r.error("refs", f"no stress given; expected at least one of {', '.join(_EXTRA_KINDS)}")
         note = r.text("note", default="")
         result.append(ExtraStress(_refs(r.data["refs"], path, r.key("refs")), note=note, **values))
+    return tuple(result)
+
+
+def _out_of_scope(data: Any, path: Path | None) -> tuple[OutOfScope, ...]:
+    if isinstance(data, dict):
+        data = [data]
+    if not isinstance(data, list):
+        raise DesignError(f"expected [[out_of_scope]] tables, got {_show(data)}", file=path, key="out_of_scope")
+    result, seen = [], {}
+    for i, item in enumerate(data):
+        r = _Reader(item, f"out_of_scope[{i}]", path, ("refs", "reason"))
+        for key in ("refs", "reason"):
+            if not r.has(key):
+                raise r.error(key, "missing: a part declared out of scope names its refs and the reason")
+        refs = _refs(r.data["refs"], path, r.key("refs"))
+        reason = r.text("reason")
+        if not reason or not reason.strip():
+            raise r.error("reason", "empty: say why the part is outside this check (who covers it instead)")
+        for ref in refs:
+            if ref.upper() in seen:
+                raise r.error("refs", f"{ref} is already declared out of scope in out_of_scope[{seen[ref.upper()]}]")
+            seen[ref.upper()] = i
+        result.append(OutOfScope(refs, reason.strip()))
     return tuple(result)
 
 

@@ -384,7 +384,9 @@ def check(design_path: str | Path | Design, *, bom: str | Path | None = None, po
                 f.detail = f"{f.detail}; {hint}"
         assigned = {r for refs in assignment.roles.values() for r in refs}
         extra_refs = {r for e in design.extra_stress for r in e.refs}
-        findings += assignment.findings + coverage.line_findings(matches, assigned, extra_refs)
+        scope = coverage.out_of_scope_refs(design)
+        findings += assignment.findings + coverage.line_findings(matches, assigned, extra_refs, scope)
+        findings += coverage.out_of_scope_findings(matches, scope)
         findings += coverage.extra_stress_findings(design, assignment.line_of)
         findings += coverage.unmodelled_role_findings(assignment, partstress.modelled_roles())
         findings += coverage.unlimited_parts(findings, pol.name)
@@ -491,7 +493,7 @@ def _waiver_dict(w) -> dict:
             "date": w.date.isoformat(), "expires": w.expires.isoformat() if w.expires else None}
 
 
-_RANK = {"fail": 6, "unmatched": 5, "not_assessed": 4, "warn": 3, "waived": 2, "info": 1, "pass": 0}
+_RANK = {"fail": 7, "unmatched": 6, "not_assessed": 5, "warn": 4, "waived": 3, "out_of_scope": 2, "info": 1, "pass": 0}
 
 
 def _parts_table(findings, matches, assignment, records_by_pn) -> list[dict]:

@@ -12,7 +12,7 @@ Keys of each section (values in SI units, °C for temperatures, hours for life):
     {"refs": ["C5"], "part_number": "...", "role": "output_cap:5V", "category": "capacitor",
      "parameter": "voltage", "unit": "V", "stress": 12.1, "rating": 25.0, "limit": 12.5,
      "utilization": 0.968, "margin": 0.032, "corner": "vin_max-full",
-     "status": "pass|warn|fail|waived|not_assessed|unmatched|info", "rule": "capacitor.ceramic.voltage",
+     "status": "pass|warn|fail|waived|not_assessed|unmatched|out_of_scope|info", "rule": "capacitor.ceramic.voltage",
      "source": "...", "detail": "...", "waiver": {...} | null,
      "alternatives": [{"part_number": "...", "description": "...", "min_margin": 0.21,
                        "worst_parameter": "voltage"}]}
@@ -47,7 +47,7 @@ from pathlib import Path
 from typing import Any
 
 #: Statuses in the order a reviewer wants to see them (worst first).
-STATUS_ORDER: tuple[str, ...] = ("fail", "unmatched", "not_assessed", "warn", "waived", "info", "pass")
+STATUS_ORDER: tuple[str, ...] = ("fail", "unmatched", "not_assessed", "warn", "waived", "out_of_scope", "info", "pass")
 
 #: Caution printed on every report and in the README.
 CAUTION = (

@@ -241,3 +241,39 @@ def test_bom_reader_warnings_reach_the_terminal_and_the_report(catalog, tmp_path
     (warning,) = [w for w in result.bom_warnings if "R9" in w]
     assert warning.startswith("BOM line ") and "quantity says 2" in warning
     assert "quantity says 2" in render_html(result)
+
+
+def test_out_of_scope_parts_are_listed_apart_never_passed(catalog, tmp_path):
+    """A real BOM carries a controller IC and connectors: unmatched (FAIL) until the design declares
+    them out of scope with a reason; then they are counted as out_of_scope, not as passes."""
+    work = tmp_path / "rio"
+    shutil.copytree(SAMPLES / "remote_io_24v", work)
+    bom = work / "bom.csv"
+    bom.write_text(bom.read_text(encoding="utf-8") + "U1,1,,Flyback controller IC primary-side,CTRL-PSR-6,SOT-23-6\n"
+                   "J1,1,,Terminal block 2-pole 5.08 mm,,TB2\n", encoding="utf-8")
+    before = check(work / "design.toml", catalog=catalog, today=TODAY)
+    assert before.verdict == "fail"
+    assert {tuple(f["refs"]) for f in before.findings if f["status"] == "unmatched"} == {("U1",), ("J1",)}
+    design = work / "design.toml"
+    design.write_text(design.read_text(encoding="utf-8") + (
+        '\n[[out_of_scope]]\nrefs = ["U1"]\nreason = "controller: supply and pin voltages reviewed on its data sheet"\n'
+        '\n[[out_of_scope]]\nrefs = ["J1"]\nreason = "field connector: rated by the mechanical design review"\n'),
+        encoding="utf-8")
+    after = check(design, catalog=catalog, today=TODAY)
+    assert after.verdict == "pass"
+    scoped = [f for f in after.findings if f["status"] == "out_of_scope"]
+    assert {tuple(f["refs"]) for f in scoped} == {("U1",), ("J1",)}
+    assert after.counts()["out_of_scope"] == 2 and after.counts()["pass"] == before.counts()["pass"]
+    assert "controller: supply and pin voltages" in next(f["detail"] for f in scoped if f["refs"] == ["U1"])
+
+
+def test_out_of_scope_contradictions_and_typos(catalog, tmp_path):
+    design = _variant(tmp_path, "remote_io_24v", lambda s: s + (
+        '\n[[out_of_scope]]\nrefs = ["Q1"]\nreason = "x"\n'))
+    with pytest.raises(DesignError, match="Q1 is mapped to role switch and declared out of scope"):
+        check(design, catalog=catalog, today=TODAY)
+    typo = _variant(tmp_path / "b", "remote_io_24v", lambda s: s + (
+        '\n[[out_of_scope]]\nrefs = ["U9"]\nreason = "controller"\n'))
+    result = check(typo, catalog=catalog, today=TODAY)
+    (f,) = [f for f in result.findings if f["refs"] == ["U9"]]
+    assert f["status"] == "unmatched" and "declared out of scope but is not on the BOM" in f["detail"]

@@ -41,6 +41,7 @@ STATUS_FILL: dict[str, str] = {
     "unmatched": "url(#pc-none)",
     "not_fitted": "url(#pc-none)",
     "info": "url(#pc-none)",
+    "out_of_scope": "url(#pc-none)",
 }
 
 #: Status words and symbols: every status shows both, never colour alone.
@@ -53,6 +54,7 @@ STATUS_LABELS: dict[str, str] = {
     "pass": "PASS",
     "not_fitted": "NOT FITTED",
     "info": "INFO (NO LIMIT)",
+    "out_of_scope": "OUT OF SCOPE",
 }
 STATUS_SYMBOLS: dict[str, str] = {
     "fail": "✖",
@@ -63,6 +65,7 @@ STATUS_SYMBOLS: dict[str, str] = {
     "pass": "✔",
     "not_fitted": "–",
     "info": "·",
+    "out_of_scope": "○",
 }
 
 INK = "#1d2733"

@@ -16,6 +16,8 @@ Statuses
                   temperature where the rule derates with temperature.
 ``unmatched``     the BOM line matched no catalog part (made by the pipeline with
                   :func:`unmatched_finding`).
+``out_of_scope``  the design file declares the part outside the check, with a reason (made by
+                  the pipeline); listed apart, never a pass, and it does not affect the verdict.
 ``info``          the policy has no rule for this category × parameter (or a life rule with no
                   requirement to meet).  The stress and its numbers are kept and shown, never as a
                   pass claim; it does not affect the verdict.
@@ -37,7 +39,7 @@ from ..units import format_quantity
 from .policy import LARGER_IS_BETTER, PARAMETERS, Policy, Rule
 from .waivers import Waiver, find_waivers
 
-STATUSES = ("pass", "warn", "fail", "waived", "not_assessed", "unmatched", "info")
+STATUSES = ("pass", "warn", "fail", "waived", "not_assessed", "unmatched", "info", "out_of_scope")
 
 #: Parameters the tool names for the reviewer but never limits: a stress item for one of them is
 #: always ``not_assessed`` with its detail (a waiver may cover it, as for any not-assessed finding).

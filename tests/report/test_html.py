@@ -70,7 +70,7 @@ def test_verdict_banner_with_counts(html, sample_result):
     text = " ".join(" ".join(page.text).split())
     assert "✖ FAIL the design does not meet the policy: 2 fail, 1 unmatched, 1 not assessed" in text
     counts = sample_result.counts()
-    assert counts == {"fail": 2, "unmatched": 1, "not_assessed": 1, "warn": 3, "waived": 1, "info": 0, "pass": 20}
+    assert counts == {"fail": 2, "unmatched": 1, "not_assessed": 1, "warn": 3, "waived": 1, "out_of_scope": 0, "info": 0, "pass": 20}
     banner = html[: html.index('id="caution-top"')]
     for label, symbol, n in (("FAIL", "✖", 2), ("UNMATCHED", "∅", 1), ("NOT ASSESSED", "?", 1), ("WARN", "▲", 3),
                              ("WAIVED", "◇", 1), ("PASS", "✔", 20)):
