@@ -78,8 +78,22 @@ def test_zener_level_factor_hand_values():
 
 
 def test_loop_overshoot_hand_value():
-    # L·Ipk²/(C·V) = 10 nH · (2 A)² / (100 pF · 80 V) = 5 V; di/dt = 2 A / 4 ns = 0.5 A/ns.
-    assert float(cl.loop_overshoot(10e-9, 2.0, 100e-12, 80.0)) == pytest.approx(5.0, rel=1e-12)
+    # Undamped L-C bound Ipk·√(L/C): 2 A · √(10 nH / 100 pF) = 2 A · 10 Ω = 20 V.
+    assert float(cl.loop_overshoot(10e-9, 2.0, 100e-12, 80.0)) == pytest.approx(20.0, rel=1e-12)
+    # The drain step no longer enters (the edge-rate form L·Ipk²/(C·V) gave 5 V here).
+    assert float(cl.loop_overshoot(10e-9, 2.0, 100e-12)) == pytest.approx(20.0, rel=1e-12)
+    # 0.5 A · √(30 nH / 330 pF) = 0.5 A · 9.535 Ω = 4.767 V; 1 A · √(3 nH / 100 pF) = 5.477 V.
+    got = cl.loop_overshoot(np.array([30e-9, 3e-9]), np.array([0.5, 1.0]), np.array([330e-12, 100e-12]))
+    np.testing.assert_allclose(got, [4.7673129462, 5.4772255751], rtol=1e-9)
+    # Identity (energy of an undamped tank with an initial current): ½·L·Ipk² = ½·C·ΔV², here
+    # ½ · 10 nH · (2 A)² = 20 nJ = ½ · 100 pF · (20 V)², for any L, C and Ipk.
+    for l_loop, ipk, c_node in ((10e-9, 2.0, 100e-12), (3e-9, 0.7, 330e-12), (30e-9, 4.0, 47e-12)):
+        dv = float(cl.loop_overshoot(l_loop, ipk, c_node))
+        assert 0.5 * c_node * dv**2 == pytest.approx(0.5 * l_loop * ipk**2, rel=1e-12)
+    # Scaling: √L and 1/√C, linear in Ipk.
+    assert float(cl.loop_overshoot(40e-9, 2.0, 100e-12)) == pytest.approx(40.0, rel=1e-12)
+    assert float(cl.loop_overshoot(10e-9, 2.0, 400e-12)) == pytest.approx(10.0, rel=1e-12)
+    assert float(cl.loop_overshoot(10e-9, 0.0, 100e-12)) == 0.0
 
 
 def test_avalanche_energy_is_the_clamp_energy_per_cycle():
@@ -115,8 +129,8 @@ def test_resistor_clamp_per_corner_balances_and_rises_at_the_limit():
     # No capacitor: the drain sees Vin + Vc, plus forward recovery (5 V ultrafast) and the loop term.
     np.testing.assert_allclose(s["sw_vpk_steady"], op.vin + s["clamp_vc"], rtol=1e-12)
     np.testing.assert_allclose(s["sw_vpk"], s["sw_vpk_steady"] + 5.0 + s["sw_vpk_loop"], rtol=1e-12)
-    # Loop: 10 nH · Ipk² / (100 pF · (Vin + Vc)) by hand at each corner.
-    np.testing.assert_allclose(s["sw_vpk_loop"], 10e-9 * s["ipk"] ** 2 / (100e-12 * s["sw_vpk_steady"]), rtol=1e-12)
+    # Loop (defaults 10 nH, 100 pF): Ipk · √(10 nH / 100 pF) = Ipk · 10 Ω by hand at each corner.
+    np.testing.assert_allclose(s["sw_vpk_loop"], 10.0 * s["ipk"], rtol=1e-12)
 
 
 def test_capacitor_adds_half_the_ripple():
@@ -171,7 +185,8 @@ def test_role_stresses_split_the_drain_peak():
         assert sw["v_peak"] == pytest.approx(sw["v_clamp_level"] + sw["v_overshoot_fr"] + sw["v_overshoot_loop"],
                                              rel=1e-12)
         assert sw["v_overshoot_fr"] == 3.0
-        assert sw["v_overshoot_loop"] == pytest.approx(20e-9 * s["ipk"][i] ** 2 / (50e-12 * sw["v_clamp_level"]))
+        # Ipk · √(20 nH / 50 pF) = Ipk · 20 Ω by hand.
+        assert sw["v_overshoot_loop"] == pytest.approx(20.0 * s["ipk"][i], rel=1e-12)
         assert sw["v_plateau"] < sw["v_clamp_level"]
         assert sw["v_reflected"] == pytest.approx(2.0 * 15.8)
         assert role_stresses(d, s, i)["clamp_diode"]["i_off"] == 0.0

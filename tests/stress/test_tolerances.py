@@ -32,16 +32,54 @@ def make(**changes):
     return design_from_dict(data)
 
 
-def test_role_arrays_match_the_engine_role_stresses_point_by_point():
-    # Guard: the vectorised mapping must equal flyback.role_stresses at every corner.
-    design = make(converter={"current_limit": "2.5 A"})
+#: Designs for the mapping guard: every clamp kind, with and without a capacitor, none, two outputs.
+MAPPING_DESIGNS = {
+    "zener_current_limit": dict(converter={"current_limit": "2.5 A"}),
+    "zener_given_loop": dict(clamp={"tolerance": "2%", "v_forward_recovery": "3 V", "loop_inductance": "20 nH"},
+                             switch_node={"capacitance": "150 pF"}),
+    "rcd_with_capacitor": dict(clamp={"kind": "rcd", "vclamp": None, "resistor": "4.7 kOhm", "capacitor": "10 nF"}),
+    "rcd_resistor_only": dict(clamp={"kind": "rcd", "vclamp": None, "resistor": "4.7 kOhm"}),
+    "rcd_fixed_vclamp": dict(clamp={"kind": "rcd"}),
+    "tvs": dict(clamp={"kind": "tvs", "diode_type": "schottky"}),
+    "no_clamp": dict(clamp=None, transformer={"llk": 0}),
+    "two_outputs": dict(output=[{"name": "5V", "vout": "5 V", "iout": "1 A", "vf": "0.45 V", "cout": "220 uF",
+                                 "esr": "20 mOhm"},
+                                {"name": "12V", "vout": "12 V", "iout": "0.1 A", "vf": "0.7 V", "turns_ratio": 1.7}]),
+}
+
+
+def make_mapping_design(name):
+    data = copy.deepcopy(BASE)
+    for section, values in MAPPING_DESIGNS[name].items():
+        if values is None:
+            data.pop(section, None)
+            continue
+        if isinstance(values, list):  # [[output]]: replaced whole
+            data[section] = values
+            continue
+        data.setdefault(section, {}).update(values)
+        data[section] = {k: v for k, v in data[section].items() if v is not None}
+    return design_from_dict(data)
+
+
+@pytest.mark.parametrize("name", list(MAPPING_DESIGNS))
+def test_role_arrays_match_the_engine_role_stresses_point_by_point(name):
+    # Guard: the vectorised mapping must equal flyback.role_stresses at every corner, key for key
+    # (the same keys, no more, no fewer, and the same values).
+    design = make_mapping_design(name)
     specs = _corners.build_corners(design)
     op = _corners.operating_points(design, specs)
     sol = solve(op)
     sol["vin_dc"] = op.vin
     arrays = role_arrays(design, op, sol)
+    # Guard for the case table: the optional keys are there exactly where the design asks for them.
+    assert ("clamp.v_ripple_pp" in arrays) == (name == "rcd_with_capacitor")
+    assert ("clamp_diode.i_off" in arrays) == (name != "no_clamp")
+    assert ("rectifier:12V.v_reverse" in arrays) == (name == "two_outputs")
     for i in range(len(specs)):
-        for role, stresses in role_stresses(design, sol, i).items():
+        roles = role_stresses(design, sol, i)
+        assert set(arrays) == {f"{role}.{key}" for role, stresses in roles.items() for key in stresses}
+        for role, stresses in roles.items():
             for key, value in stresses.items():
                 got = arrays[f"{role}.{key}"][i]
                 assert (value is None and not np.isfinite(got)) or got == pytest.approx(value, rel=1e-12), (
