@@ -154,8 +154,8 @@ def solve(op: OperatingPoints, chunk: int = 32768) -> dict[str, np.ndarray]:
     resistor's energy balance), clamp_ripple (ΔVc ≈ P_clamp/(Vc·Cc·fs), NaN without a capacitor),
     clamp_level (the clamp voltage the drain sees: Vc + ΔVc/2, or vclamp·clamp_factor for a
     Zener/TVS), sw_v_plateau (Vin + reflected plateau), sw_vpk_steady (Vin + clamp_level; Vin +
-    plateau without a clamp), sw_vpk_fr (forward recovery), sw_vpk_loop (L_loop·Ipk²/(C_node·
-    (Vin + clamp_level))), sw_vpk = steady + fr + loop; clamp_v = clamp_vc + ΔVc/2 (the voltage on
+    plateau without a clamp), sw_vpk_fr (forward recovery), sw_vpk_loop (the clamp-loop ring,
+    Ipk·√(L_loop/C_node)), sw_vpk = steady + fr + loop; clamp_v = clamp_vc + ΔVc/2 (the voltage on
     the clamp parts); clamp_diode_i_off (the clamp diode's current when it turns off: 0, the
     leakage current falls softly to zero) [A].
 
@@ -446,7 +446,7 @@ def role_stresses(design, sol: dict[str, np.ndarray], i: int, voltage_only: bool
     switch: ``v_peak`` [V] the drain peak, the sum of ``v_clamp_level`` (Vin + the clamp voltage the
     drain sees: RCD capacitor peak Vc + ΔVc/2, or the Zener/TVS at its highest level; Vin + the
     reflected plateau without leakage), ``v_overshoot_fr`` (clamp-diode forward recovery) and
-    ``v_overshoot_loop`` (clamp-loop L·di/dt); ``v_plateau`` [V] Vin + the reflected plateau (the
+    ``v_overshoot_loop`` (clamp-loop ring Ipk·√(L_loop/C_node)); ``v_plateau`` [V] Vin + the reflected plateau (the
     drain after the leakage reset); ``v_reflected`` [V] Vr = n·(Vout + Vf), for the avalanche energy
     (:func:`partcheck.stress.clamp.avalanche_energy`); ``i_peak``, ``i_rms``, ``i_avg`` [A].
     clamp (with a ``[clamp]``): ``v`` [V] the voltage on the clamp parts (RCD: Vc + ΔVc/2),
