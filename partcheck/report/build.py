@@ -20,7 +20,16 @@ version still renders.  Shapes read, beyond those in :mod:`partcheck.result`:
 * a finding's warn band comes from ``finding["warn_from"]`` (the utilisation where warning
   starts) or from its rule in ``policy_rules`` (``warn_from``, or ``warn_band`` as a fraction
   below the limit: ``warn_band = 0.1`` warns from 90 % of the limit);
-* a bank capacitor may carry ``i_rms_rating`` [A], drawn as a tick on its bar.
+* a bank capacitor's rated ripple current is the ``rating`` of its ``ripple_current`` finding (after
+  the frequency and temperature corrections), shown only when that finding is at the bank's
+  corner; a capacitor without such a finding may carry ``i_rms_rating`` [A] (a result saved by an
+  older version), shown marked as the uncorrected catalog value;
+* a bank's total is ``i_bank_rms`` (the bank current), never recomputed from the shares.
+
+Every value the page shows twice (a bank's current, a rating, a waveform's peak beside the corner
+table) is read from one place in the result; where two places in the result disagree (a waveform
+sketch below the peak bound the corner table checks, a bank split recorded at another corner than
+its worst finding), the page says so beside the figure instead of showing two numbers as one.
 """
 
 from __future__ import annotations
@@ -34,7 +43,7 @@ from markupsafe import Markup
 from ..result import STATUS_ORDER, CheckResult
 from ..units import format_quantity
 from . import plots
-from .plots import STATUS_LABELS, STATUS_SYMBOLS
+from .plots import STATUS_LABELS, STATUS_SYMBOLS, format_utilisation
 
 #: Statuses that need a reviewer's attention, shown as cards at the top.
 ATTENTION = ("fail", "unmatched", "not_assessed", "warn")
@@ -220,7 +229,7 @@ def finding_view(finding: dict[str, Any], rules: dict[str, dict[str, Any]],
         "rating": format_quantity(_number(finding.get("rating")), kind),
         "limit": format_quantity(_number(finding.get("limit")), kind),
         "relation": "at least" if larger else "at most",
-        "utilization": format_quantity(util, "%") if util is not None else "—",
+        "utilization": format_utilisation(util) if util is not None else "—",
         "utilization_value": util,
         "margin": format_quantity(_number(finding.get("margin")), "%"),
         "warn_from": format_quantity(warn_from, "%") if warn_from is not None else "",
@@ -275,7 +284,7 @@ def part_view(part: dict[str, Any], warn_from: float | None) -> dict[str, Any]:
         "description": _text(part.get("description")),
         "role": _text(part.get("role")),
         "category": _text(part.get("category")),
-        "utilization": format_quantity(util, "%") if util is not None else "—",
+        "utilization": format_utilisation(util) if util is not None else "—",
         "worst_parameter": PARAMETER_LABELS.get(str(part.get("worst_parameter")), _text(part.get("worst_parameter"))),
         "bom_line": _text(part.get("bom_line")),
         "match": " ".join(x for x in (_text(match.get("method")),
@@ -424,6 +433,123 @@ def _waveform_order(name: str) -> tuple[int, str]:
     return (0 if base.startswith("switch") else 1 if base.startswith("rectifier") else 2, name)
 
 
+#: Corner-table stress → finding parameter, for the sweep's and the waveforms' cross-references.
+_STRESS_PARAMETER = {"v_peak": "voltage", "v_reverse": "voltage", "i_peak": "current_peak"}
+
+
+def _role_in(roles: dict[str, Any], role: str) -> dict[str, Any]:
+    """The stresses of ``role`` in one corner's roles; ``rectifier:5V`` also finds the plain
+    ``rectifier`` of a single-output design (and the other way round)."""
+    if isinstance(roles.get(role), dict):
+        return roles[role]
+    base = role.split(":")[0]
+    same = [v for k, v in roles.items() if k.split(":")[0] == base and isinstance(v, dict)]
+    return same[0] if len(same) == 1 else {}
+
+
+def _same_role(a: str, b: str, roles: set[str]) -> bool:
+    if a == b:
+        return True
+    base_a, base_b = a.split(":")[0], b.split(":")[0]
+    if base_a != base_b:
+        return False
+    return len({r for r in roles if r.split(":")[0] == base_a}) == 1  # one output: plain and named agree
+
+
+def checked_peak(corners: list[dict[str, Any]], corner_id: Any, role: str, key: str = "i_peak") -> float | None:
+    """The value the corner table shows for ``role``'s ``key`` at ``corner_id`` (None when absent)."""
+    for c in corners:
+        if isinstance(c, dict) and _text(c.get("id") or c.get("name")) == _text(corner_id):
+            return _number(_role_in(_corner_roles(c), role).get(key))
+    return None
+
+
+def _worst_finding(findings: list[dict[str, Any]]) -> dict[str, Any] | None:
+    scored = [f for f in findings if _number(f.get("utilization")) is not None]
+    return max(scored, key=lambda f: _number(f.get("utilization"))) if scored else None
+
+
+def bank_view(name: str, bank: dict[str, Any], findings: list[dict[str, Any]]) -> dict[str, Any]:
+    """One capacitor bank: caption data, the table rows and the chart.
+
+    The rated ripple current of each capacitor is the rating its ``ripple_current`` finding used,
+    shown where that finding sits at the bank's corner (the one corner the split is recorded at).
+    The total is the bank current ``i_bank_rms``; the capacitors' currents add harmonic by
+    harmonic as phasors, so their root-sum-square is not the bank current and is not shown as it.
+    """
+    caps = [c for c in bank.get("caps") or [] if isinstance(c, dict)]
+    corner = _text(bank.get("corner")) or "—"
+    refs = {_text(c.get("ref")) for c in caps}
+    ripple = {}
+    for f in findings:
+        if f.get("parameter") == "ripple_current":
+            for ref in _refs(f.get("refs")):
+                if ref in refs:
+                    ripple.setdefault(ref, f)
+    worst = _worst_finding(list({id(f): f for f in ripple.values()}.values()))
+    if worst is None:
+        corner_note = "where the bank's ripple current is highest; no capacitor of the bank has a ripple-current finding"
+    else:
+        who = f"{', '.join(_refs(worst.get('refs')))}, {format_utilisation(_number(worst.get('utilization')))}"
+        if _text(worst.get("corner")) == corner:
+            corner_note = f"the corner of the bank's worst ripple-current finding ({who})"
+        else:
+            corner_note = (f"where the bank's ripple current is highest; its worst ripple-current finding ({who}) is "
+                           f"at corner {_text(worst.get('corner'))}, where the split is not recorded: that finding's "
+                           "numbers are in its card and the findings table, not here")
+    total_sq = sum((_number(c.get("i_rms")) or 0.0) ** 2 for c in caps)
+    table, chart_caps = [], []
+    for c in caps:
+        ref = _text(c.get("ref"))
+        i = _number(c.get("i_rms"))
+        f = ripple.get(ref)
+        rating: float | None = None
+        if f is not None:
+            if _text(f.get("corner")) == corner:
+                rating = _number(f.get("rating"))
+                rating_text = format_quantity(rating, "A")
+            else:
+                rating_text = f"— (finding at {_text(f.get('corner'))})"
+        elif _number(c.get("i_rms_rating")) is not None:
+            rating = _number(c.get("i_rms_rating"))
+            rating_text = f"{format_quantity(rating, 'A')} (catalog, uncorrected)"
+        else:
+            rating_text = "—"
+        table.append({
+            "ref": ref,
+            "part_number": _text(c.get("part_number")),
+            "i_rms": format_quantity(i, "A"),
+            "share": format_quantity(i * i / total_sq, "%") if i is not None and total_sq > 0 else "—",
+            "c_eff": format_quantity(_number(c.get("c_eff")), "F"),
+            "esr": format_quantity(_number(c.get("esr")), "ohm"),
+            "rating": rating_text,
+            "rating_value": rating,
+        })
+        chart_caps.append({**c, "i_rms_rating": rating})
+    total = _number(bank.get("i_bank_rms"))
+    return {"name": str(name), "corner": corner, "corner_note": corner_note,
+            "harmonics": _text(bank.get("harmonics")),
+            "captured": format_quantity(_number(bank.get("captured")), "%")
+            if _number(bank.get("captured")) is not None else "",
+            "v_pp": format_quantity(_number(bank.get("v_pp")), "V") if _number(bank.get("v_pp")) is not None else "",
+            "total": format_quantity(total, "A") if total is not None else "—",
+            "total_value": total,
+            "svg": Markup(plots.bank_split_chart(str(name), {**bank, "caps": chart_caps})), "caps": table}
+
+
+def _sweep_checked(series: dict[str, Any], findings: list[dict[str, Any]], roles: set[str]) -> dict[str, Any] | None:
+    """The finding a sweep series stands for (its role and parameter), as ``{"value", "corner"}``."""
+    key = str(series.get("key", ""))
+    role, _, stress = key.rpartition(".")
+    parameter = _STRESS_PARAMETER.get(stress)
+    if not role or parameter is None or "." in role:
+        return None
+    same = [f for f in findings if f.get("parameter") == parameter and _number(f.get("stress")) is not None
+            and _same_role(str(f.get("role") or ""), role, roles | {role})]
+    worst = _worst_finding(same)
+    return {"value": _number(worst.get("stress")), "corner": _text(worst.get("corner"))} if worst else None
+
+
 def figures(result: CheckResult, parts: list[dict[str, Any]], part_warn: dict[int, float | None],
             max_rows: int = 40) -> dict[str, Any]:
     """The report's inline SVG figures, each wrapped in :class:`Markup`."""
@@ -436,6 +562,9 @@ def figures(result: CheckResult, parts: list[dict[str, Any]], part_warn: dict[in
         rows.append({"label": label, "utilization": util, "status": str(part.get("status")),
                      "warn_from": part_warn.get(i)})
     rows.sort(key=lambda r: (-r["utilization"], _rank(r["status"])))
+    findings = [f for f in result.findings if isinstance(f, dict)]
+    corners = [c for c in result.corners if isinstance(c, dict)]
+    finding_roles = {str(f.get("role") or "") for f in findings}
     sweep = result.sweep if isinstance(result.sweep, dict) else {}
     sweep_panels = []
     for series in sweep.get("series") or []:
@@ -444,6 +573,7 @@ def figures(result: CheckResult, parts: list[dict[str, Any]], part_warn: dict[in
         series = dict(series)
         key = str(series.get("key", ""))
         series.setdefault("larger_is_better", key.split(".")[-1] in LARGER_IS_BETTER)
+        series.setdefault("checked", _sweep_checked(series, findings, finding_roles))
         sweep_panels.append(Markup(plots.sweep_panel(sweep.get("vin") or [], series)))
     waves = result.waveforms if isinstance(result.waveforms, dict) else {}
     wave_panels = []
@@ -452,34 +582,11 @@ def figures(result: CheckResult, parts: list[dict[str, Any]], part_warn: dict[in
         if isinstance(wave, dict):
             wave = {"label": wave.get("label") or name, **{k: v for k, v in wave.items() if k != "label"}}
             unit = wave.get("unit") if isinstance(wave.get("unit"), str) else "A"
+            if unit == "A" and "checked_peak" not in wave:
+                wave["checked_peak"] = checked_peak(corners, wave.get("corner"), str(name))
             wave_panels.append(Markup(plots.waveform_panel(wave, unit=unit)))
-    banks = []
     bank_split = result.bank_split if isinstance(result.bank_split, dict) else {}
-    for name, bank in bank_split.items():
-        if not isinstance(bank, dict):
-            continue
-        caps = [c for c in bank.get("caps") or [] if isinstance(c, dict)]
-        total_sq = sum((_number(c.get("i_rms")) or 0.0) ** 2 for c in caps)
-        table = []
-        for c in caps:
-            i = _number(c.get("i_rms"))
-            table.append({
-                "ref": _text(c.get("ref")),
-                "part_number": _text(c.get("part_number")),
-                "i_rms": format_quantity(i, "A"),
-                "share": format_quantity(i * i / total_sq, "%") if i is not None and total_sq > 0 else "—",
-                "c_eff": format_quantity(_number(c.get("c_eff")), "F"),
-                "esr": format_quantity(_number(c.get("esr")), "ohm"),
-                "rating": format_quantity(_number(c.get("i_rms_rating")), "A"),
-            })
-        banks.append({"name": str(name), "corner": _text(bank.get("corner")) or "—",
-                      "harmonics": _text(bank.get("harmonics")),
-                      "captured": format_quantity(_number(bank.get("captured")), "%")
-                      if _number(bank.get("captured")) is not None else "",
-                      "v_pp": format_quantity(_number(bank.get("v_pp")), "V") if _number(bank.get("v_pp")) is not None
-                      else "",
-                      "total": format_quantity(math.sqrt(total_sq), "A") if total_sq > 0 else "—",
-                      "svg": Markup(plots.bank_split_chart(str(name), {**bank, "caps": caps})), "caps": table})
+    banks = [bank_view(str(name), bank, findings) for name, bank in bank_split.items() if isinstance(bank, dict)]
     return {
         "utilisation": Markup(plots.utilisation_chart(rows, max_rows=max_rows)) if rows else None,
         "utilisation_shown": min(len(rows), max_rows),
@@ -491,6 +598,40 @@ def figures(result: CheckResult, parts: list[dict[str, Any]], part_warn: dict[in
         "waveforms": wave_panels,
         "banks": banks,
     }
+
+#: Status words in running text ("2 parts: 1 fail, 1 pass").
+STATUS_WORDS: dict[str, str] = {"fail": "fail", "unmatched": "unmatched", "not_assessed": "not assessed",
+                                "warn": "warn", "waived": "waived", "info": "info (no limit)", "pass": "pass",
+                                "not_fitted": "not fitted"}
+
+
+def _plural(n: int, noun: str) -> str:
+    return f"{n} {noun}" + ("" if n == 1 else "s")
+
+
+def count_statuses(rows: list[dict[str, Any]]) -> dict[str, int]:
+    """Rows (parts or findings) per status, in the report's status order, zeros left out."""
+    counts: dict[str, int] = {}
+    for row in rows:
+        key = str(row.get("status"))
+        counts[key] = counts.get(key, 0) + 1
+    return dict(sorted(counts.items(), key=lambda kv: _rank(kv[0])))
+
+
+def _parts_with(parts: list[dict[str, Any]], status: str) -> int:
+    """How many parts carry ``status`` as their own (worst) status."""
+    return sum(1 for p in parts if p.get("status") == status)
+
+
+def tally(part_counts: dict[str, int], n_parts: int, finding_counts: dict[str, int], n_findings: int) -> str:
+    """``"12 parts: 2 fail, 10 pass; 64 findings: 5 fail, 59 pass"``: parts and findings, each said as such."""
+    def side(n: int, noun: str, counts: dict[str, int]) -> str:
+        items = [f"{c} {STATUS_WORDS.get(s, s.replace('_', ' '))}" for s, c in counts.items() if c]
+        return _plural(n, noun) + (": " + ", ".join(items) if items else "")
+
+    ordered = dict(sorted(finding_counts.items(), key=lambda kv: _rank(kv[0])))
+    return f"{side(n_parts, 'part', part_counts)}; {side(n_findings, 'finding', ordered)}"
+
 
 
 def build_view(result: CheckResult) -> dict[str, Any]:
@@ -527,13 +668,16 @@ def build_view(result: CheckResult) -> dict[str, Any]:
     part_views = [part_view(parts[i], part_warn[i]) for i in order]
 
     counts = result.counts()
+    part_counts = count_statuses(parts)
     verdict = str(result.verdict)
     failing = counts.get("fail", 0)
     reasons = []
     for status in ("fail", "unmatched", "not_assessed"):
         n = counts.get(status, 0)
         if n:
-            reasons.append(f"{n} {STATUS_LABELS[status].lower()}")
+            on = _parts_with(parts, status)
+            reasons.append(f"{_plural(n, STATUS_WORDS[status] + ' finding')}"
+                           + (f" on {_plural(on, 'part')}" if on else ""))
     unmatched_lines = [line for line in result.bom_lines if isinstance(line, dict)
                        and str(line.get("status", line.get("match_status", ""))) == "unmatched"]
     return {
@@ -553,6 +697,7 @@ def build_view(result: CheckResult) -> dict[str, Any]:
         + [{**status_view(s), "n": n} for s, n in counts.items() if s not in STATUS_ORDER],
         "n_findings": len(findings),
         "n_parts": len(parts),
+        "tally": tally(part_counts, len(parts), counts, len(findings)),
         "n_bom_lines": len(result.bom_lines),
         "unmatched_lines": [{"line": _text(ln.get("line") or ln.get("bom_line")), "refs": _text(ln.get("refs")),
                              "text": _text(ln.get("text") or ln.get("description") or ln.get("value") or ln.get("part_number")),

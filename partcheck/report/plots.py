@@ -223,6 +223,29 @@ def _clean(values: Sequence[Any]) -> list[float | None]:
     return out
 
 
+#: A limit further than this factor above the data is not drawn to scale; it is stated in text
+#: so that the curve keeps the panel's height.
+OFF_SCALE_FACTOR = 3.0
+
+
+def format_utilisation(utilisation: float | None) -> str:
+    """Utilisation (stress/limit) as a percentage that never crosses 100 % by rounding.
+
+    Three significant digits as everywhere else, but a value above 1 always reads above
+    "100 %" and a value below 1 always below it, with as many more digits as that takes
+    (``1.0004`` → ``"100.04 %"``, ``0.9996`` → ``"99.96 %"``); only exactly 1 reads
+    ``"100 %"``.  So a FAIL just over its limit never shows the same figure as a WARN at it.
+    """
+    if utilisation is None or not math.isfinite(utilisation):
+        return format_quantity(utilisation, "%")
+    for digits in range(3, 9):
+        text = format_quantity(utilisation, "%", digits)
+        shown = float(text.split()[0]) / 100.0
+        if (utilisation > 1.0) == (shown > 1.0) and (utilisation < 1.0) == (shown < 1.0):
+            return text
+    return "> 100 %" if utilisation > 1.0 else "< 100 %"
+
+
 # --------------------------------------------------------------------------------------------
 # Utilisation bars
 # --------------------------------------------------------------------------------------------
@@ -235,7 +258,7 @@ def utilisation_bar(utilisation: float | None, status: str, warn_from: float | N
     A solid tick marks 100 % of the limit; the warn band (``warn_from``…1.0) is a light hatch
     behind the bar; the bar's fill pattern says the status; a clipped bar ends in an arrow.
     """
-    text_label = label or f"utilisation {format_quantity(utilisation, '%')} of limit, {STATUS_LABELS.get(status, status)}"
+    text_label = label or f"utilisation {format_utilisation(utilisation)} of limit, {STATUS_LABELS.get(status, status)}"
     svg = Svg(width, height, label=text_label, css_class="ubar")
     x0, x1 = 1.0, width - 1.0
     span = x1 - x0
@@ -304,7 +327,7 @@ def utilisation_chart(rows: Sequence[dict[str, Any]], *, max_rows: int = 40) -> 
                  text_anchor="end", fill=INK)
         symbol = STATUS_SYMBOLS.get(status, "")
         svg.text(x0 + plot_w + 6, y + row_h - 5,
-                 f"{symbol} {format_quantity(util, '%')} {STATUS_LABELS.get(status, status)}",
+                 f"{symbol} {format_utilisation(util)} {STATUS_LABELS.get(status, status)}",
                  font_size=10, fill=INK)
     svg.line(sx(1.0), top - 8, sx(1.0), height - bottom, stroke=INK, stroke_width=2.0)
     svg.text(sx(1.0) + 3, top - 10, "limit (100 %)", font_size=9, fill=INK)
@@ -342,11 +365,24 @@ def _frame(svg: Svg, x0: float, y0: float, w: float, h: float, xlo: float, xhi: 
     return sx, sy
 
 
+def _off_scale_text(limit: float, data_max: float, kind: str | None, label: str = "limit") -> str:
+    ratio = limit / data_max if data_max > 0 else math.inf
+    times = f"{ratio:.0f}×" if math.isfinite(ratio) else "far above"
+    return f"{label} {format_quantity(limit, kind)} off scale ({times} the highest value)"
+
+
 def sweep_panel(vin: Sequence[Any], series: dict[str, Any]) -> str:
     """One stress against input voltage, with its limit as a dashed line.
 
     Points within the limit are open circles, points beyond it filled squares, so the crossing
-    reads without colour.  ``series``: ``{"label", "unit", "values", "limit", "limit_label"}``.
+    reads without colour.  ``series``: ``{"label", "unit", "values", "limit", "limit_label"}``,
+    optionally ``"checked": {"value", "corner"}`` (the finding's stress at its own corner, which
+    may lie outside the sweep: the surge or current-limit corner), stated under the plot.
+
+    The sweep covers only the full-load points it was given, so its extreme is called the
+    highest (or lowest) *in the sweep*, never the worst.  A limit more than
+    :data:`OFF_SCALE_FACTOR` times above the highest value is stated in text instead of
+    squashing the curve against the floor.
     """
     xs = _clean(vin)
     ys = _clean(series.get("values", []))
@@ -355,7 +391,8 @@ def sweep_panel(vin: Sequence[Any], series: dict[str, Any]) -> str:
     limit = float(limit) if isinstance(limit, (int, float)) and not isinstance(limit, bool) else None
     pts = [(x, y) for x, y in zip(xs, ys) if x is not None and y is not None]
     label = str(series.get("label") or series.get("key") or "")
-    width, height = 330.0, 210.0
+    checked = series.get("checked") if isinstance(series.get("checked"), dict) else None
+    width, height = 330.0, 222.0
     x0, y0, w, h = 48.0, 34.0, 266.0, 130.0
     svg = Svg(width, height, label=f"{label} against input voltage", css_class="plot panel")
     svg.text(4, 13, _shorten(label, 52), font_size=11, font_weight="600", fill=INK)
@@ -363,11 +400,15 @@ def sweep_panel(vin: Sequence[Any], series: dict[str, Any]) -> str:
         svg.text(x0, y0 + 20, "no values", font_size=10, fill=MUTED)
         return str(svg)
     larger_is_better = bool(series.get("larger_is_better"))
-    candidates = [abs(y) for _, y in pts] + ([abs(limit)] if limit is not None else [])
+    data_max = max(abs(y) for _, y in pts)
+    off_scale = (limit is not None and not larger_is_better and data_max > 0
+                 and limit > OFF_SCALE_FACTOR * data_max)
+    drawn_limit = None if off_scale else limit
+    candidates = [abs(y) for _, y in pts] + ([abs(drawn_limit)] if drawn_limit is not None else [])
     factor, unit_text = axis_unit(max(candidates) or 1.0, unit)
     xv = [p[0] for p in pts]
     yv = [p[1] * factor for p in pts]
-    lim = limit * factor if limit is not None else None
+    lim = drawn_limit * factor if drawn_limit is not None else None
     ylo = min(0.0, min(yv))
     yhi = max(yv + ([lim] if lim is not None else []))
     yticks = nice_ticks(ylo, yhi * 1.05 if yhi > 0 else yhi + 1.0, 4)
@@ -375,36 +416,53 @@ def sweep_panel(vin: Sequence[Any], series: dict[str, Any]) -> str:
     xticks = [t for t in xticks if min(xv) - 1e-9 <= t <= max(xv) + 1e-9] or [min(xv), max(xv)]
     sx, sy = _frame(svg, x0, y0, w, h, min(xv), max(xv), yticks[0], yticks[-1], "input voltage [V]",
                     f"[{unit_text}]" if unit_text else "", xticks, yticks)
+    lim_text = str(series.get("limit_label") or "limit")
     if lim is not None:
         svg.line(x0, sy(lim), x0 + w, sy(lim), stroke=INK, stroke_width=1.4, stroke_dasharray="6 3")
-        lim_text = str(series.get("limit_label") or "limit")
         svg.text(x0 + w - 2, sy(lim) - 3, f"{_shorten(lim_text, 30)} {format_quantity(limit, unit)}", font_size=8.5,
                  text_anchor="end", fill=INK)
+    elif off_scale:
+        svg.text(x0 + w - 2, y0 + 10, _off_scale_text(limit, data_max, unit), font_size=8.5, text_anchor="end",
+                 fill=INK)
     svg.polyline([(sx(x), sy(y)) for x, y in zip(xv, yv)], fill="none", stroke=INK, stroke_width=1.5)
     over = 0
     for x, y in zip(xv, yv):
-        beyond = lim is not None and ((y < lim) if larger_is_better else (y > lim))
+        beyond = limit is not None and ((y < limit * factor) if larger_is_better else (y > limit * factor))
         if beyond:
             over += 1
             svg.rect(sx(x) - 3, sy(y) - 3, 6, 6, fill=INK)
         else:
             svg.el("circle", cx=float(sx(x)), cy=float(sy(y)), r=2.6, fill="#ffffff", stroke=INK, stroke_width=1.2)
-    worst = (min if larger_is_better else max)(pts, key=lambda p: p[1])
-    note = f"worst {format_quantity(worst[1], unit)} at {format_quantity(worst[0], 'V')}"
-    if lim is not None:
+    extreme = (min if larger_is_better else max)(pts, key=lambda p: p[1])
+    note = (f"{'lowest' if larger_is_better else 'highest'} in the sweep {format_quantity(extreme[1], unit)} "
+            f"at {format_quantity(extreme[0], 'V')}")
+    if limit is not None:
         note += f"; beyond limit at {over} of {len(pts)} points" if over else "; within limit everywhere"
-    svg.text(4, height - 4, note, font_size=9, fill=INK)
+    svg.text(4, height - 16, note, font_size=9, fill=INK)
+    value = checked.get("value") if checked else None
+    if isinstance(value, (int, float)) and not isinstance(value, bool) and math.isfinite(value):
+        svg.text(4, height - 4, _shorten(f"checked: {format_quantity(float(value), unit)} at corner "
+                                         f"{checked.get('corner') or '—'}", 64), font_size=9, fill=INK)
     return str(svg)
 
 
 def waveform_panel(wave: dict[str, Any], *, unit: str = "A") -> str:
-    """A current waveform from its breakpoints ``t`` [s], ``y`` [A] (piecewise linear)."""
+    """A current waveform from its breakpoints ``t`` [s], ``y`` [A] (piecewise linear).
+
+    ``wave["checked_peak"]`` (optional) is the peak the corner table and the finding use for this
+    corner; when the drawn waveform's own peak differs from it by more than 0.5 %, the checked
+    peak is drawn as a dashed line and both figures are stated, so the panel never shows a peak
+    that silently disagrees with the table.
+    """
     ts = _clean(wave.get("t", []))
     ys = _clean(wave.get("y", []))
     pts = [(t, y) for t, y in zip(ts, ys) if t is not None and y is not None]
     label = str(wave.get("label") or wave.get("name") or "")
     corner = str(wave.get("corner") or "")
-    width, height = 460.0, 220.0
+    checked = wave.get("checked_peak")
+    checked = float(checked) if isinstance(checked, (int, float)) and not isinstance(checked, bool) \
+        and math.isfinite(checked) else None
+    width, height = 460.0, 232.0
     x0, y0, w, h = 52.0, 36.0, 390.0, 132.0
     svg = Svg(width, height, label=f"{label} at corner {corner}", css_class="plot panel")
     svg.text(4, 13, _shorten(label, 60), font_size=11, font_weight="600", fill=INK)
@@ -412,25 +470,39 @@ def waveform_panel(wave: dict[str, Any], *, unit: str = "A") -> str:
     if len(pts) < 2:
         svg.text(x0, y0 + 20, "no waveform", font_size=10, fill=MUTED)
         return str(svg)
+    peak_i = max(range(len(pts)), key=lambda i: abs(pts[i][1]))
+    peak = pts[peak_i][1]
+    differs = checked is not None and abs(checked - peak) > 0.005 * max(abs(checked), abs(peak))
     tmax = max(p[0] for p in pts)
     tfac, tunit = axis_unit(tmax, "s")
-    yabs = max(abs(p[1]) for p in pts) or 1.0
+    yabs = max([abs(p[1]) for p in pts] + ([abs(checked)] if differs else [])) or 1.0
     yfac, yunit = axis_unit(yabs, unit)
     tv = [p[0] * tfac for p in pts]
     yv = [p[1] * yfac for p in pts]
-    yticks = nice_ticks(min(0.0, min(yv)), max(0.0, max(yv)) * 1.05 or 1.0, 4)
+    top = max([0.0, *yv] + ([checked * yfac] if differs else []))
+    yticks = nice_ticks(min(0.0, min(yv)), top * 1.05 or 1.0, 4)
     xticks = nice_ticks(min(tv), max(tv), 6)
     xticks = [t for t in xticks if min(tv) - 1e-9 <= t <= max(tv) + 1e-9]
     sx, sy = _frame(svg, x0, y0, w, h, min(tv), max(tv), yticks[0], yticks[-1], f"time [{tunit}]",
                     f"[{yunit}]", xticks, yticks)
     if yticks[0] < 0 < yticks[-1]:
         svg.line(x0, sy(0.0), x0 + w, sy(0.0), stroke=MUTED, stroke_width=0.8)
+    if differs:
+        svg.line(x0, sy(checked * yfac), x0 + w, sy(checked * yfac), stroke=INK, stroke_width=1.2,
+                 stroke_dasharray="5 3")
+        svg.text(x0 + w - 2, sy(checked * yfac) - 3, f"checked peak {format_quantity(checked, unit)}",
+                 font_size=8.5, text_anchor="end", fill=INK)
     svg.polyline([(sx(t), sy(y)) for t, y in zip(tv, yv)], fill="none", stroke=INK, stroke_width=1.6,
                  stroke_linejoin="round")
-    peak_i = max(range(len(pts)), key=lambda i: abs(pts[i][1]))
     svg.el("circle", cx=float(sx(tv[peak_i])), cy=float(sy(yv[peak_i])), r=3.0, fill=INK)
-    svg.text(4, height - 4, f"peak {format_quantity(pts[peak_i][1], unit)}; {len(pts)} breakpoints, "
+    name = "waveform peak" if differs else "peak"
+    svg.text(4, height - 16, f"{name} {format_quantity(peak, unit)}; {len(pts)} breakpoints, "
              f"{format_quantity(tmax, 's')} shown", font_size=9, fill=INK)
+    if differs:
+        svg.text(4, height - 4, f"dashed: the peak the corner table and the finding use, "
+                 f"{format_quantity(checked, unit)} (a bound above this sketch)" if checked > peak else
+                 f"dashed: the peak the corner table and the finding use, {format_quantity(checked, unit)}",
+                 font_size=9, fill=INK)
     return str(svg)
 
 
@@ -447,7 +519,7 @@ def bank_split_chart(bank_name: str, bank: dict[str, Any]) -> str:
     (``i_rms_rating``), is a tick on its bar.
     """
     caps = [c for c in bank.get("caps", []) if isinstance(c, dict)]
-    label_w, plot_w, value_w = 170.0, 330.0, 170.0
+    label_w, plot_w, value_w = 170.0, 330.0, 260.0
     row_h, top, bottom = 20.0, 22.0, 26.0
     width = label_w + plot_w + value_w
     height = top + bottom + row_h * max(len(caps), 1)
@@ -455,7 +527,10 @@ def bank_split_chart(bank_name: str, bank: dict[str, Any]) -> str:
     currents = [c.get("i_rms") if isinstance(c.get("i_rms"), (int, float)) else None for c in caps]
     ratings = [c.get("i_rms_rating") if isinstance(c.get("i_rms_rating"), (int, float)) else None for c in caps]
     total_sq = sum(i * i for i in currents if i is not None)
-    top_value = max([i for i in currents if i is not None] + [r for r in ratings if r is not None] + [1e-12])
+    i_max = max([i for i in currents if i is not None] + [1e-12])
+    # A rating far above every current would squash the bars: it stays off the scale (said in text).
+    on_scale = [r for r in ratings if r is not None and r <= OFF_SCALE_FACTOR * i_max]
+    top_value = max([i_max] + on_scale)
     factor, unit_text = axis_unit(top_value, "A")
     ticks = nice_ticks(0.0, top_value * factor, 4)
     scale_hi = ticks[-1] or 1.0
@@ -480,12 +555,14 @@ def bank_split_chart(bank_name: str, bank: dict[str, Any]) -> str:
             svg.text(label_w + 4, y + row_h - 6, "no value", font_size=9, fill=MUTED)
             continue
         svg.rect(label_w, y + 4, sx(current) - label_w, row_h - 8, fill="url(#pc-pass)", stroke=INK, stroke_width=0.7)
-        if rating is not None:
+        if rating is not None and rating <= OFF_SCALE_FACTOR * i_max:
             svg.line(sx(rating), y + 1, sx(rating), y + row_h - 1, stroke=INK, stroke_width=2.0)
         share = (current * current / total_sq) if total_sq > 0 else 0.0
-        text = f"{format_quantity(current, 'A')} ({share * 100:.0f} % of I²)"
+        text = f"{format_quantity(current, 'A')} ({format_quantity(share, '%')} of I²)"
         if rating is not None:
             text += f" | rated {format_quantity(rating, 'A')}"
+            if rating > OFF_SCALE_FACTOR * i_max:
+                text += " (off scale)"
         svg.text(label_w + plot_w + 6, y + row_h - 6, text, font_size=9.5, fill=INK)
     if any(r is not None for r in ratings):
         svg.text(label_w + plot_w + 6, 12, "tick = rated ripple current", font_size=9, fill=MUTED)

@@ -16,6 +16,7 @@ import struct
 import subprocess
 import time
 import zlib
+from html.parser import HTMLParser
 from http.client import HTTPConnection
 from pathlib import Path
 from types import SimpleNamespace
@@ -47,6 +48,91 @@ CHROMIUM_FLAGS = (
     "--proxy-server=127.0.0.1:9",
     "--proxy-bypass-list=<-loopback>",
 )
+
+
+class Node:
+    """One element of a parsed page: tag, attributes, children (nodes and text strings)."""
+
+    def __init__(self, tag: str, attrs: dict[str, str | None]) -> None:
+        self.tag, self.attrs, self.children = tag, attrs, []
+
+    def text(self) -> str:
+        """All text inside, whitespace collapsed."""
+        return " ".join("".join(c if isinstance(c, str) else " " + c.text() + " " for c in self.children).split())
+
+    def iter(self, tag: str | None = None):
+        if tag is None or self.tag == tag:
+            yield self
+        for c in self.children:
+            if isinstance(c, Node):
+                yield from c.iter(tag)
+
+    def find_all(self, tag: str, **attrs: str) -> list["Node"]:
+        return [n for n in self.iter(tag) if all(n.attrs.get(k.rstrip("_")) == v for k, v in attrs.items())]
+
+
+VOID = {"meta", "link", "br", "hr", "img", "input", "col", "area", "base", "wbr", "source", "track", "embed"}
+
+
+class Collector(HTMLParser):
+    """Every start tag with its attributes, and the document text, as a browser's parser sees them;
+    also the element tree (``root``) for the tests that compare values across sections."""
+
+    def __init__(self) -> None:
+        super().__init__(convert_charrefs=True)
+        self.tags: list[tuple[str, dict[str, str | None]]] = []
+        self.text: list[str] = []
+        self._skip = 0
+        self.root = Node("#document", {})
+        self._stack = [self.root]
+
+    def handle_starttag(self, tag, attrs):
+        self.tags.append((tag, dict(attrs)))
+        if tag in ("style",):
+            self._skip += 1
+        node = Node(tag, dict(attrs))
+        self._stack[-1].children.append(node)
+        if tag not in VOID:
+            self._stack.append(node)
+
+    def handle_startendtag(self, tag, attrs):
+        self.tags.append((tag, dict(attrs)))
+        self._stack[-1].children.append(Node(tag, dict(attrs)))
+
+    def handle_endtag(self, tag):
+        if tag in ("style",):
+            self._skip -= 1
+        for i in range(len(self._stack) - 1, 0, -1):
+            if self._stack[i].tag == tag:
+                del self._stack[i:]
+                break
+
+    def handle_data(self, data):
+        if not self._skip:
+            self.text.append(data)
+            self._stack[-1].children.append(data)
+
+
+def parse(html: str) -> Collector:
+    collector = Collector()
+    collector.feed(html)
+    collector.close()
+    return collector
+
+
+@pytest.fixture(scope="session")
+def html_parse():
+    """``parse(html) -> Collector`` (``--import-mode=importlib`` cannot import conftest)."""
+    return parse
+
+
+@pytest.fixture(scope="session")
+def demo_results(tmp_path_factory) -> dict[str, tuple[CheckResult, str]]:
+    """The three demo scenarios checked against the seeded demo catalog: ``{name: (result, html)}``."""
+    from partcheck.demo import run_demo
+
+    runs = run_demo(tmp_path_factory.mktemp("demo"))
+    return {r.scenario: (r.result, r.report.read_text(encoding="utf-8")) for r in runs}
 
 
 @pytest.fixture

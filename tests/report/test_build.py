@@ -39,7 +39,8 @@ def test_attention_and_waived_groups(sample_result):
     assert [f["status"] for f in view["attention"]] == ["fail", "fail", "unmatched", "not_assessed", "warn", "warn", "warn"]
     assert [f["refs"] for f in view["waived"]] == ["C1"]
     assert view["waived"][0]["waiver"]["approved_by"] == "reliability lead, review RV-0142"
-    assert view["verdict_label"] == "FAIL" and view["verdict_reasons"] == "2 fail, 1 unmatched, 1 not assessed"
+    assert view["verdict_label"] == "FAIL" and view["verdict_reasons"] == (
+        "2 fail findings on 1 part, 1 unmatched finding on 1 part, 1 not assessed finding on 1 part")
 
 
 def test_finding_numbers_are_formatted_with_units(sample_result):

@@ -86,7 +86,7 @@ def test_sweep_panel_marks_points_beyond_the_limit_as_filled_squares():
     assert len(dashed) == 1
     texts = [t.text for t in root.findall("text")]
     assert "55 % of 100 V 55 V" in texts
-    assert "worst 60 V at 16 V; beyond limit at 2 of 4 points" in texts
+    assert "highest in the sweep 60 V at 16 V; beyond limit at 2 of 4 points" in texts
 
 
 def test_sweep_panel_for_a_minimum_limit():
@@ -94,7 +94,7 @@ def test_sweep_panel_for_a_minimum_limit():
               "limit": 2.35e-6, "larger_is_better": True}
     root = tree(plots.sweep_panel([9.0, 12.0, 16.0], series))
     assert len([r for r in root.findall("rect") if r.attrib.get("width") == "6"]) == 2
-    assert "worst 1 µF at 16 V; beyond limit at 2 of 3 points" in [t.text for t in root.findall("text")]
+    assert "lowest in the sweep 1 µF at 16 V; beyond limit at 2 of 3 points" in [t.text for t in root.findall("text")]
 
 
 def test_waveform_panel_draws_every_breakpoint():
