@@ -662,13 +662,20 @@ def affected(findings: Sequence[dict]) -> list[dict]:
 
 
 def write_annotated_bom(result: CheckResult, path: str | Path) -> Path:
-    """The BOM as read, with columns for matched part, worst utilisation, status and alternative.
+    """The BOM as read, with columns for matched part, status, worst utilisation, the parameter
+    that decides it, and the first approved alternative of a failing part.
 
-    Written as CSV or XLSX by the extension of ``path``; cells a spreadsheet would execute are
-    neutralised (:mod:`partcheck.bom.export`).
+    Written as CSV or XLSX by the extension of ``path`` (anything else is a ``BomError``, exit
+    code 2, checked before the BOM is read).  ``partcheck_utilization`` is the number the JSON
+    calls ``worst_utilization`` (a fraction, 1.0 = at the limit): a numeric cell formatted as a
+    percentage in XLSX (one decimal, more where one would round across 100 %), the plain
+    fraction in CSV.  ``partcheck_worst_parameter`` is the JSON's ``worst_parameter``.  Cells a
+    spreadsheet would execute are neutralised (:mod:`partcheck.bom.export`).
     """
+    from .bom.export import check_extension, percent_format
     from .bom.export import write_annotated_bom as _write
 
+    check_extension(path)
     bom = read_bom(result.trace["bom_path"])
     by_line = {row["bom_line"]: row for row in result.parts}
     alternative_of: dict[str, str] = {}
@@ -676,14 +683,15 @@ def write_annotated_bom(result: CheckResult, path: str | Path) -> Path:
         if f["status"] == "fail" and f.get("alternatives"):
             for ref in f["refs"]:
                 alternative_of.setdefault(ref, f["alternatives"][0]["part_number"])
-    columns: dict[str, list] = {"partcheck_part": [], "partcheck_utilization": [], "partcheck_status": [],
-                                "partcheck_alternative": []}
+    columns: dict[str, list] = {"partcheck_part": [], "partcheck_status": [], "partcheck_utilization": [],
+                                "partcheck_worst_parameter": [], "partcheck_alternative": []}
     for line in bom.lines:
         row = by_line.get(line.line, {})
         util = row.get("worst_utilization")
         columns["partcheck_part"].append(row.get("part_number") or "")
-        columns["partcheck_utilization"].append(f"{util:.1%}" if util is not None else "")
         columns["partcheck_status"].append(row.get("status", ""))
+        columns["partcheck_utilization"].append(float(util) if isinstance(util, (int, float)) else None)
+        columns["partcheck_worst_parameter"].append(row.get("worst_parameter") or "")
         columns["partcheck_alternative"].append(
             next((alternative_of[r] for r in line.refs if r in alternative_of), ""))
-    return _write(bom, columns, path)
+    return _write(bom, columns, path, number_formats={"partcheck_utilization": percent_format})
