@@ -187,16 +187,33 @@ def catalog_add(
 
 @catalog_app.command("import")
 def catalog_import(
-    file: Annotated[str, typer.Argument(help="CSV, TSV, XLSX or JSON file; curves from X.curves.csv beside X.csv.",
-                                        show_default=False)],
+    file: Annotated[str, typer.Argument(help="CSV (separated by ',', ';' or tabs), TSV, XLSX or JSON file; curves "
+                                        "from X.curves.csv beside X.csv.", show_default=False)],
     update: Annotated[bool, typer.Option("--update", help="Replace parts that are already in the catalog.")] = False,
+    map_file: Annotated[Optional[str], typer.Option("--map", help="A TOML column mapping for a spreadsheet with its "
+                                                    "own headers: [columns] \"Mfr Part\" = \"part_number\", and "
+                                                    "optionally [values.category] \"Cap\" = \"capacitor\" "
+                                                    "(docs/catalog-columns.md).", show_default=False)] = None,
+    column: Annotated[Optional[list[str]], typer.Option("--column", help="HEADER=COLUMN: read the file's header "
+                                                        "as this catalog column (repeatable; wins over --map).",
+                                                        show_default=False)] = None,
+    decimal_comma: Annotated[Optional[bool], typer.Option("--decimal-comma/--no-decimal-comma",
+                                                          help="Force or forbid decimal commas ('4,7 uF'); default: "
+                                                               "detected.", show_default=False)] = None,
     db: _CatDb = None,
 ) -> None:
     """Import parts all-or-nothing: every bad cell is reported with its line and column, and nothing is written."""
     from .catalog import open_catalog
+    from .catalog.io import ReadOptions, add_column_options, load_mapping
 
+    options = ReadOptions(decimal_comma=decimal_comma)
+    if map_file is not None:
+        load_mapping(map_file, options)
+    add_column_options(options, column or [])
     with open_catalog(db, create=True) as cat, _cat_progress("importing parts") as progress:
-        report = cat.import_file(file, update=update, progress=progress)
+        report = cat.import_file(file, update=update, progress=progress, read=options)
+    for notice in options.notices:
+        err.print(f"note: {notice}", markup=False)
     out.print(f"imported {report} into {cat.location}", markup=False)
 
 
@@ -251,11 +268,12 @@ def catalog_list(
 
 @catalog_app.command("show")
 def catalog_show(
-    part: Annotated[str, typer.Argument(help="The exact part number.", show_default=False)],
+    part: Annotated[str, typer.Argument(help="The part number (letter case and Unicode form may differ from the "
+                                        "stored spelling).", show_default=False)],
     format: _CatFormat = "table",
     db: _CatDb = None,
 ) -> None:
-    """Show every rating and curve of one part."""
+    """Show every rating and curve of one part (the stored spelling when the given one differs only in letter case)."""
     from rich.table import Table
 
     from .catalog import open_catalog
@@ -266,7 +284,10 @@ def catalog_show(
     _cat_choice(format, ("table", "json"), "--format")
     with open_catalog(db, create=False) as cat:
         record = cat.get(part)
-        written = cat.updated_at(part)
+        written = cat.updated_at(record.part_number)
+    if record.part_number != part:
+        err.print(f"note: showing the stored part number {_cat_shown(record.part_number)} for {_cat_shown(part)} "
+                  "(they differ only in letter case or Unicode form)", markup=False)
     if format == "json":
         _cat_json(part_to_json(record))
         return
@@ -279,6 +300,13 @@ def catalog_show(
         text = ", ".join(f"{format_quantity(x, spec.x_kind)} → {y:g}" for x, y in points)
         out.print(f"curve {name} ({spec.doc}): {text}", markup=False)
     out.print(f"last written: {written or 'before schema version 2 (not recorded)'}", markup=False)
+
+
+def _cat_shown(part_number: str) -> str:
+    """A part number quoted, escaped when not plain ASCII (look-alike spellings read differently)."""
+    from .catalog.validate import shown
+
+    return shown(part_number)
 
 
 @catalog_app.command("find")

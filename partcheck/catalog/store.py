@@ -440,8 +440,12 @@ class Catalog:
 
     def import_file(self, path: str | os.PathLike[str], *, update: bool = False,
                     method: Literal["bulk", "orm"] = "bulk",
-                    progress: Callable[[int, int | None], None] | None = None) -> ImportReport:
+                    progress: Callable[[int, int | None], None] | None = None,
+                    read: cio.ReadOptions | None = None) -> ImportReport:
         """Import a CSV, TSV, XLSX or JSON catalog file (and its curve side file) all-or-nothing.
+
+        ``read`` is passed to the file reader (:class:`partcheck.catalog.io.ReadOptions`: a column
+        mapping, value translations, decimal commas; what it detects lands in ``read.notices``).
 
         Every cell is validated; all problems are reported in one :class:`CatalogInputError` and
         nothing is written.  A part number already in the catalog is an error unless ``update``
@@ -455,10 +459,10 @@ class Catalog:
         part numbers seen (for duplicates across chunks).  ``progress(rows done, about how many
         lines)`` is called after each chunk.
         """
-        chunks = cio.iter_tables(path, IMPORT_CHUNK)
+        chunks = cio.iter_tables(path, IMPORT_CHUNK, read)
         first = next(chunks)
         if next(chunks, None) is None:
-            curve_table = cio.read_curve_table(path)
+            curve_table = cio.read_curve_table(path, read)
             validated = self._validate(first, curve_table, update=update)
             report = self._write(validated, update=update, method=method)
             if progress:
@@ -466,11 +470,12 @@ class Catalog:
             return report
         chunks.close()
         del first
-        return self._retrying(lambda: self._import_streaming(Path(path), update, method, progress))
+        return self._retrying(lambda: self._import_streaming(Path(path), update, method, progress, read))
 
-    def _import_streaming(self, path: Path, update: bool, method: str, progress) -> ImportReport:
+    def _import_streaming(self, path: Path, update: bool, method: str, progress,
+                          read: cio.ReadOptions | None = None) -> ImportReport:
         total = cio.count_lines(path)
-        curve_table = cio.read_curve_table(path)
+        curve_table = cio.read_curve_table(path, read)
         stamp = _now()
         problems: list[cval.Problem] = []
         seen: dict[str, int | None] = {}
@@ -480,7 +485,7 @@ class Catalog:
         with_curves = _part_numbers(curve_table) if curve_table is not None else set()  # categories kept for these
         added = updated = done = points = 0
         with self._conn(write=True) as conn:
-            for table in cio.iter_tables(path, IMPORT_CHUNK):
+            for table in cio.iter_tables(path, IMPORT_CHUNK, read):
                 # only this chunk's part numbers and their twins: memory stays bounded
                 existing, twins = self._lookup(conn, _part_numbers(table))
                 try:

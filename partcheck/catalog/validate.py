@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Iterable
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from itertools import compress
 
 from ..errors import CatalogInputError, QuantityError
@@ -56,6 +56,8 @@ class Table:
     keys: list[str | None] | None = None  # JSON: "parts[3]" per row
     curves: list[tuple[str, str, object, object, int | None, str | None]] | None = None  # JSON curves
     text_only: bool = False  # every cell is a str (CSV, TSV): lets validation skip empty cells at C speed
+    decimal_comma: bool = False  # numbers written with ',' as the decimal point ("4,7 uF")
+    shown_columns: dict[str, str] | None = None  # a column mapping: catalog column -> the header as written
 
 
 @dataclass
@@ -82,11 +84,19 @@ class Validated:
 _ORDER = {name: i for i, name in enumerate([*FIELDS, *CURVE_COLUMNS])}
 
 
-def raise_problems(file: str, problems: list[Problem], verb: str = "imported") -> None:
-    """Raise one :class:`CatalogInputError` listing ``problems`` (sorted by line), if any."""
+def raise_problems(file: str, problems: list[Problem], verb: str = "imported", *, footer: str | None = None,
+                   columns: dict[str, str] | None = None) -> None:
+    """Raise one :class:`CatalogInputError` listing ``problems`` (sorted by line), if any.
+
+    ``footer`` is a line said once after the list (the valid column names); ``columns`` maps
+    catalog column names to the headers as written in ``file`` (a column mapping), so that each
+    problem names the column the user sees."""
     if not problems:
         return
     problems = sorted(problems, key=lambda p: (p.file or "", p.line or 0, p.key or "", _ORDER.get(p.column, 99)))
+    if columns:
+        problems = [replace(p, column=columns[p.column]) if p.file is None and p.column in columns else p
+                    for p in problems]
     if len(problems) == 1:
         p = problems[0]
         exc = CatalogInputError(
@@ -95,7 +105,8 @@ def raise_problems(file: str, problems: list[Problem], verb: str = "imported") -
     else:
         listed = "\n".join(f"  {p.where()}: {p.message}" for p in problems[:MAX_LISTED])
         more = f"\n  ... and {len(problems) - MAX_LISTED} more" if len(problems) > MAX_LISTED else ""
-        exc = CatalogInputError(f"{len(problems)} problems, nothing was {verb}:\n{listed}{more}", file=file)
+        tail = f"\n  {footer}" if footer else ""
+        exc = CatalogInputError(f"{len(problems)} problems, nothing was {verb}:\n{listed}{more}{tail}", file=file)
     exc.problems = problems  # type: ignore[attr-defined]
     raise exc
 
@@ -108,11 +119,14 @@ def closest(name: str, choices: Iterable[str], cutoff: float = 60.0) -> str | No
     return hit[0] if hit else None
 
 
-def unknown_column_message(name: str, valid: Iterable[str]) -> str:
+def unknown_column_message(name: str, valid: Iterable[str], *, listed: bool = True) -> str:
+    """``unknown column 'x'; did you mean 'y'?``, followed by the valid names when ``listed``."""
     valid = list(valid)
     near = closest(name.lower(), valid)
-    hint = f"; did you mean {near!r}?" if near else ";"
-    return f"unknown column {name!r}{hint} valid columns are: {', '.join(valid)}"
+    hint = f"; did you mean {near!r}?" if near else ""
+    if not listed:
+        return f"unknown column {name!r}{hint}"
+    return f"unknown column {name!r}{hint or ';'} valid columns are: {', '.join(valid)}"
 
 
 _NOT_FINITE = frozenset({"nan", "+nan", "-nan", "inf", "+inf", "-inf", "infinity", "+infinity", "-infinity"})
@@ -122,7 +136,7 @@ def _is_empty(cell: object) -> bool:
     return cell is None or (isinstance(cell, str) and not cell.strip())
 
 
-def parse_cell(cell: object, kind: str | None) -> float:
+def parse_cell(cell: object, kind: str | None, decimal_comma: bool = False) -> float:
     """One numeric cell as an SI float; plain numbers take a fast path with the same result."""
     if isinstance(cell, str):
         text = cell.strip()
@@ -136,7 +150,7 @@ def parse_cell(cell: object, kind: str | None) -> float:
             else:
                 if math.isfinite(value):
                     return value + 0.0  # -0.0 → 0.0: databases do not keep the sign of zero
-    return parse_quantity(cell, kind) + 0.0  # type: ignore[arg-type]
+    return parse_quantity(cell, kind, decimal_comma=decimal_comma) + 0.0  # type: ignore[arg-type]
 
 
 def _check_value(name: str, value: float, cell: object) -> str | None:
@@ -162,11 +176,18 @@ def _choice_message(what: str, text: str, choices: Iterable[str]) -> str:
     return f"unknown {what} {text!r}{hint} expected one of {', '.join(choices)}"
 
 
-def _header(table: Table, valid: Iterable[str], problems: list[Problem]) -> list[str | None]:
-    """Canonical column names of ``table.header`` (None for a bad one, which is reported)."""
+def _header(table: Table, valid: Iterable[str], problems: list[Problem], *, each_lists: bool = False
+            ) -> tuple[list[str | None], str | None]:
+    """Canonical column names of ``table.header`` (None for a bad one, which is reported) and the
+    footer of the error message.
+
+    One unknown header is one problem with a did-you-mean; with two or more, the valid names are
+    said once, in the footer, instead of after every header (``each_lists`` keeps them on each
+    problem, for the four columns of a curve file)."""
     valid = list(valid)
     names: list[str | None] = []
     seen: dict[str, int] = {}
+    unknown: list[Problem] = []
     for position, raw in enumerate(table.header):
         name = str(raw).strip().lower()
         if name == "":  # a trailing empty column from a spreadsheet: fine unless it holds data
@@ -174,10 +195,8 @@ def _header(table: Table, valid: Iterable[str], problems: list[Problem]) -> list
             continue
         if name not in valid:
             names.append(None)
-            msg = unknown_column_message(str(raw).strip(), valid)
-            if ";" in str(raw) and "," not in str(raw):
-                msg += " (the file seems to be separated by ';'; the catalog format uses ',')"
-            problems.append(Problem(msg, table.header_line, str(raw).strip()))
+            text = str(raw).strip()
+            unknown.append(Problem(unknown_column_message(text, valid, listed=False), table.header_line, text))
             continue
         if name in seen:
             names.append(None)
@@ -185,7 +204,19 @@ def _header(table: Table, valid: Iterable[str], problems: list[Problem]) -> list
             continue
         seen[name] = position
         names.append(name)
-    return names
+    footer = None
+    if unknown:
+        semicolons = any(";" in str(p.column) and "," not in str(p.column) for p in unknown)
+        hint = " (the file seems to be separated by ';'; name it .csv to have the separator detected)" \
+            if semicolons else ""
+        if len(unknown) == 1 or each_lists:
+            unknown = [replace(p, message=unknown_column_message(str(p.column), valid) + hint) for p in unknown]
+        else:
+            footer = f"valid columns are: {', '.join(valid)}{hint}"
+            if table.shown_columns is not None:
+                footer += "; map a header to one of them with [columns] in the mapping file or --column HEADER=COLUMN"
+        problems.extend(unknown)
+    return names, footer
 
 
 def _where(table: Table, i: int) -> tuple[int | None, str | None]:
@@ -219,12 +250,16 @@ def validate(table: Table, curve_table: Table | None = None, *, existing: Iterab
     """
     existing = existing if isinstance(existing, (set, frozenset, dict)) else set(existing)
     problems: list[Problem] = []
-    names = _header(table, FIELDS, problems)
+    names, footer = _header(table, FIELDS, problems)
     present = {n for n in names if n}
+    shown_columns = table.shown_columns
     for required in ("part_number", "category"):
         if required not in present and not any("unknown column" in p.message for p in problems if p.column):
-            problems.append(Problem(f"the required column {required!r} is missing", table.header_line))
-    raise_problems(table.file, problems, verb)  # nothing more can be checked with a broken header
+            hint = (f"; map the file's header to it with [columns] in the mapping file or --column HEADER={required}"
+                    if shown_columns is not None else "")
+            problems.append(Problem(f"the required column {required!r} is missing{hint}", table.header_line))
+    # nothing more can be checked with a broken header
+    raise_problems(table.file, problems, verb, footer=footer, columns=shown_columns)
 
     width = len(names)
     n = len(table.rows)
@@ -335,11 +370,12 @@ def validate(table: Table, curve_table: Table | None = None, *, existing: Iterab
     curves_file = None
     category = {pn: cat for pn, cat in zip(pns, cats) if pn is not None}
     if table.curves is not None:  # JSON: curves inside each part
-        curves = _validate_curves(table.curves, category, table.file, problems, side=False)
+        curves = _validate_curves(table.curves, category, table.file, problems, side=False,
+                                  decimal_comma=table.decimal_comma)
     elif curve_table is not None:
         curves_file = curve_table.file
         curves = _validate_curve_table(curve_table, category, problems)
-    raise_problems(table.file, problems, verb)
+    raise_problems(table.file, problems, verb, columns=shown_columns)
     return Validated(table.file, values, list(table.lines), list(table.keys or [None] * n), curves, curves_file)
 
 
@@ -378,7 +414,7 @@ def _validate_column(name: str, cells: tuple, cats: list[str | None], table: Tab
                 if spec.text:
                     value = _text_value(name, cell, cat)
                 else:
-                    value = parse_cell(cell, spec.kind)
+                    value = parse_cell(cell, spec.kind, table.decimal_comma)
                     why = _check_value(name, value, cell)  # type: ignore[arg-type]
                     if why:
                         raise QuantityError(why)
@@ -436,7 +472,7 @@ def _cross_checks(values: dict[str, list], table: Table, problems: list[Problem]
 
 def _validate_curve_table(table: Table, category: dict[str, str | None], problems: list[Problem]) -> dict:
     own: list[Problem] = []
-    names = _header(table, CURVE_COLUMNS, own)
+    names, _ = _header(table, CURVE_COLUMNS, own, each_lists=True)
     missing = [c for c in CURVE_COLUMNS if c not in names]
     if missing and not own:
         own.append(Problem(f"the curve file needs the columns {', '.join(CURVE_COLUMNS)}; "
@@ -451,11 +487,11 @@ def _validate_curve_table(table: Table, category: dict[str, str | None], problem
         points.append((_text_cell(cells[idx["part_number"]]) if not _is_empty(cells[idx["part_number"]]) else "",
                        "" if _is_empty(cells[idx["curve"]]) else _text_cell(cells[idx["curve"]]).lower(),
                        cells[idx["x"]], cells[idx["y"]], line, None))
-    return _validate_curves(points, category, table.file, problems, side=True)
+    return _validate_curves(points, category, table.file, problems, side=True, decimal_comma=table.decimal_comma)
 
 
 def _validate_curves(points, category: dict[str, str | None], file: str, problems: list[Problem], *,
-                     side: bool) -> dict:
+                     side: bool, decimal_comma: bool = False) -> dict:
     """Check curve points; returns {part_number: {curve: ((x, y), ...)}} for every part in the file."""
     out: dict[str, dict[str, list[tuple[float, float]]]] = {pn: {} for pn in category}
     sfile = file if side else None
@@ -487,14 +523,14 @@ def _validate_curves(points, category: dict[str, str | None], file: str, problem
         try:
             if _is_empty(xcell):
                 raise QuantityError("x is empty")
-            x = parse_cell(xcell, spec.x_kind)
+            x = parse_cell(xcell, spec.x_kind, decimal_comma)
         except QuantityError as exc:
             bad(exc.message, line, "x", key, (pn, name))
             continue
         try:
             if _is_empty(ycell):
                 raise QuantityError("y is empty")
-            y = parse_cell(ycell, None)
+            y = parse_cell(ycell, None, decimal_comma)
             if y < 0:
                 raise QuantityError(f"{ycell!r} is not allowed: y is a multiplier or fraction and cannot be negative")
         except QuantityError as exc:
