@@ -667,17 +667,39 @@ def check_command(
     annotate: Annotated[Optional[str], typer.Option("--annotate", help="Write the BOM with results (.csv/.xlsx).")] = None,
     pin: Annotated[Optional[list[str]], typer.Option("--pin", help="REF=PART: use this catalog part for REF.")] = None,
     format: Annotated[str, typer.Option("--format", help="table or json.")] = "table",
+    columns: Annotated[Optional[str], typer.Option("--columns", help="BOM header overrides, e.g. "
+                                                                     "ref=Designator,value=Val (win over the "
+                                                                     "design file's [bom_read] columns).")] = None,
+    sheet: Annotated[Optional[str], typer.Option("--sheet", help="XLSX sheet of the BOM to read (default: "
+                                                                 "[bom_read] sheet, else the first).")] = None,
+    decimal_comma: Annotated[Optional[bool], typer.Option("--decimal-comma/--no-decimal-comma",
+                                                          help="Force or forbid decimal commas in the BOM "
+                                                               "(default: [bom_read] decimal_comma, else "
+                                                               "detected).")] = None,
 ) -> None:
     """Check every part of DESIGN's BOM against the derating policy at its worst corner.
 
+    The BOM is read as `partcheck match` reads it; --columns, --sheet and --decimal-comma win over
+    the design file's [bom_read] table.  Which column each BOM field was read from, and which
+    columns were ignored, is printed on standard error.
     Exit code 0 when the verdict is pass, 1 when it is fail, 2 on bad input.
     """
+    from rich.text import Text
+
+    from .bom.columns import parse_column_overrides
     from .bom.match import parse_pins
     from .pipeline import check, write_annotated_bom
 
     if format not in ("table", "json"):
         raise typer.BadParameter(f"{format!r} is not a format; expected table or json", param_hint="--format")
-    result = check(design, bom=bom, policy=policy, db=db, pins=parse_pins(pin), command=" ".join(sys.argv))
+    bom_options = {"columns": parse_column_overrides(columns) or None, "sheet": sheet, "decimal_comma": decimal_comma}
+
+    def _column_report(bom_data) -> None:  # on standard error, so JSON on standard output stays JSON
+        for line in bom_data.column_report():
+            err.print(Text(line))
+
+    result = check(design, bom=bom, policy=policy, db=db, pins=parse_pins(pin), command=" ".join(sys.argv),
+                   bom_options=bom_options, on_bom=_column_report)
     if format == "json":
         out.print(result.to_json(), markup=False, highlight=False)
     else:

@@ -204,6 +204,8 @@ class Design:
     mission: tuple[MissionPoint, ...] = ()  # empty when the file has no [[mission]]
     measured: tuple[Measured, ...] = ()  # bench figures that replace the model's
     out_of_scope: tuple[OutOfScope, ...] = ()  # references declared outside the check
+    # [bom_read]: how the BOM is read, as read_bom keywords (columns, sheet, decimal_comma); only given keys
+    bom_read: dict[str, Any] = field(default_factory=dict)
     raw: dict[str, Any] = field(default_factory=dict)
 
     @property
@@ -328,7 +330,7 @@ def _unknown(key: str, allowed: tuple[str, ...]) -> str:
 
 _TOP = ("name", "bom", "policy", "converter", "input", "output", "transformer", "clamp", "environment",
         "switch_node", "roles", "pins", "extra_stress", "tolerances", "requirements", "waiver", "feedback",
-        "mission", "measured", "out_of_scope")
+        "mission", "measured", "out_of_scope", "bom_read")
 
 
 def design_from_dict(data: dict[str, Any], *, file: str | Path | None = None) -> Design:
@@ -376,6 +378,7 @@ def design_from_dict(data: dict[str, Any], *, file: str | Path | None = None) ->
         mission=_mission(data["mission"], path, inp, environment) if "mission" in data else (),
         measured=_measured(data.get("measured", []), path),
         out_of_scope=_out_of_scope(data.get("out_of_scope", []), path),
+        bom_read=_bom_read(data.get("bom_read", {}), path),
         raw=data,
     )
 
@@ -663,6 +666,59 @@ def _out_of_scope(data: Any, path: Path | None) -> tuple[OutOfScope, ...]:
             seen[ref.upper()] = i
         result.append(OutOfScope(refs, reason.strip()))
     return tuple(result)
+
+
+_BOM_READ_KEYS = ("columns", "sheet", "decimal_comma")
+
+
+def _bom_read(data: Any, path: Path | None) -> dict[str, Any]:
+    """``[bom_read]``: how the design's BOM is read, as :func:`partcheck.bom.read.read_bom` keywords.
+
+    ``columns`` is a table of BOM field → header text (``{ref = "Designator"}``; field names as
+    ``--columns`` takes them), ``sheet`` the XLSX sheet, ``decimal_comma`` true or false.  Only the
+    keys the file gives are returned; the command line's options win over them.
+    """
+    r = _Reader(data, "bom_read", path, _BOM_READ_KEYS)
+    result: dict[str, Any] = {}
+    if r.has("columns"):
+        from .bom.columns import FIELD_ALIASES, SYNONYMS, normalise_header
+
+        cols = r.data["columns"]
+        if not isinstance(cols, dict) or not cols:
+            raise r.error("columns", f"expected a table of BOM field = \"header\" such as "
+                                     f"{{ref = \"Designator\", part_number = \"Mfr P/N\"}}, got {_show(cols)}")
+        columns: dict[str, str] = {}
+        field_of_header: dict[str, str] = {}
+        for key, header in cols.items():
+            where = r.key(f"columns.{key}")
+            name = FIELD_ALIASES.get(key.lower())
+            if name is None:
+                hint = difflib.get_close_matches(key.lower(), tuple(FIELD_ALIASES), n=1, cutoff=0.5)
+                did = f"; did you mean {hint[0]!r}?" if hint else ""
+                raise DesignError(f"unknown BOM field {key!r}{did} (fields: {', '.join(SYNONYMS)})",
+                                  file=path, key=where)
+            if not isinstance(header, str) or not normalise_header(header):
+                raise DesignError(f"expected the header text of a BOM column, such as \"Designator\", got "
+                                  f"{_show(header)}", file=path, key=where)
+            if name in columns:
+                raise DesignError(f"{key!r} is another name for {name!r}, which this table already gives",
+                                  file=path, key=where)
+            norm = normalise_header(header)
+            if norm in field_of_header:
+                raise DesignError(f"column {header!r} is already given for {field_of_header[norm]!r}; one column "
+                                  "holds one field", file=path, key=where)
+            columns[name] = header.strip()
+            field_of_header[norm] = name
+        result["columns"] = columns
+    if r.has("sheet"):
+        result["sheet"] = r.text("sheet")
+    if r.has("decimal_comma"):
+        flag = r.data["decimal_comma"]
+        if not isinstance(flag, bool):
+            raise r.error("decimal_comma", f"expected true or false (leave it out to detect decimal commas), "
+                                           f"got {_show(flag)}")
+        result["decimal_comma"] = flag
+    return result
 
 
 #: Parameters a ``[[measured]]`` table may give, with their unit kinds.

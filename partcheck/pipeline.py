@@ -344,7 +344,8 @@ def stress_report(design_path: str | Path | Design, *, bom: str | Path | None = 
 
 def check(design_path: str | Path | Design, *, bom: str | Path | None = None, policy: str | None = None,
           catalog: Any = None, db: str | None = None, pins: dict[str, str] | None = None,
-          today: _dt.date | None = None, command: str | None = None) -> CheckResult:
+          today: _dt.date | None = None, command: str | None = None, bom_options: dict[str, Any] | None = None,
+          on_bom: Any = None) -> CheckResult:
     """Run the whole check and return its result.
 
     Parameters
@@ -357,6 +358,11 @@ def check(design_path: str | Path | Design, *, bom: str | Path | None = None, po
     pins: reference → part number, winning over the design's ``[pins]`` and the matcher.
     today: the date waivers are judged against (default: today).
     command: the command line, for the traceability section.
+    bom_options: how the BOM is read, as :func:`~partcheck.bom.read.read_bom` keywords
+        (``columns`` field → header, ``sheet``, ``decimal_comma``; ``None`` values are not given);
+        they win over the design file's ``[bom_read]`` table (columns field by field).
+    on_bom: called with the :class:`~partcheck.bom.read.Bom` as read, before matching (the
+        command line prints its :meth:`~partcheck.bom.read.Bom.column_report`).
     """
     from .catalog.store import open_catalog
 
@@ -368,7 +374,9 @@ def check(design_path: str | Path | Design, *, bom: str | Path | None = None, po
     bom_path = Path(bom) if bom is not None else design.bom
     if bom_path is None:
         raise DesignError("no BOM to check: give --bom or `bom = \"...\"` in the design file", file=design.file, key="bom")
-    bom_data: Bom = read_bom(bom_path)
+    bom_data: Bom = read_bom(bom_path, **(bom_options or {}), defaults=design.bom_read)
+    if on_bom is not None:
+        on_bom(bom_data)
 
     own_catalog = catalog is None
     cat = open_catalog(db, create=False) if own_catalog else catalog

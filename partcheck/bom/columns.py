@@ -29,7 +29,16 @@ SYNONYMS: Final[dict[str, tuple[str, ...]]] = {
     "part_number": ("part number", "mpn", "part no", "part nr", "part num", "part", "manufacturer part",
                     "manufacturer part number", "mfr part number", "mfr part no", "mfr part", "mfr pn", "mfg part",
                     "pn", "p n", "partnumber", "part_number", "order code", "internal part number",
-                    "article", "article number", "catalog part", "catalogue part"),
+                    "article", "article number", "catalog part", "catalogue part",
+                    # The manufacturer's part number in the spellings BOM exports use ("Manufacturer P/N",
+                    # "Mfr. Part #", "Mfg Part Number", "Mfr #"): "#" reads as "no" (see normalise_header).
+                    # "Manufacturer", "Mfr" or "Mfg" alone name the maker and are deliberately absent.
+                    "manufacturer p n", "manufacturer part no", "manufacturer part nr", "manufacturer part num",
+                    "manufacturer no", "manufacturers part number", "manufacturer s part number",
+                    "manufacturer product number", "manuf part number", "manuf part no", "manuf p n",
+                    "mfr part num", "mfr part nr", "mfr p n", "mfr no", "mfr number",
+                    "mfg part number", "mfg part no", "mfg part num", "mfg p n", "mfg no", "mfg number",
+                    "mfgr part number", "mfgr part no", "mfgr p n"),
     "package": ("package", "footprint", "case", "pcb footprint", "case size", "size", "housing", "case package"),
     "voltage": ("voltage", "rated voltage", "voltage rating", "v rated", "working voltage", "v max", "vmax",
                 "v_rated", "rating"),
@@ -58,13 +67,18 @@ POSITIVE_FIT_HEADERS: Final = frozenset({"fitted", "populate", "populated", "fit
                                          "assembly"})
 
 _NON_WORD = re.compile(r"[^0-9a-zµ]+")
+_NUMBER_SIGN = re.compile(r"[#№]")
 
 
 def normalise_header(text: object) -> str:
-    """``" Qty. "`` → ``"qty"``; ``"Mfr. Part-No"`` → ``"mfr part no"``; ``"Ref_Des"`` → ``"ref des"``."""
+    """``" Qty. "`` → ``"qty"``; ``"Mfr. Part-No"`` → ``"mfr part no"``; ``"Ref_Des"`` → ``"ref des"``.
+
+    The number sign reads as the word it abbreviates: ``"Mfr. Part #"`` → ``"mfr part no"``, so
+    ``"Mfr #"`` (a part number) stays apart from ``"Mfr"`` (the maker).
+    """
     if text is None:
         return ""
-    return _NON_WORD.sub(" ", str(text).strip().lower()).strip()
+    return _NON_WORD.sub(" ", _NUMBER_SIGN.sub(" no ", str(text).strip().lower())).strip()
 
 
 _LOOKUP: Final[dict[str, str]] = {}
@@ -160,3 +174,16 @@ def canonical_overrides(columns: dict[str, str] | None) -> dict[str, str]:
             raise BomError(f"columns: unknown field {key!r}; expected one of {', '.join(SYNONYMS)}")
         result[field] = str(header)
     return result
+
+
+def merge_overrides(base: dict[str, str] | None, top: dict[str, str] | None) -> dict[str, str]:
+    """Column overrides of two sources, ``top`` winning: ``base`` is a design file's, ``top`` the command line's.
+
+    The merge is field by field; a ``base`` entry is dropped when ``top`` gives its field, or gives
+    its header to another field (one column holds one field).
+    """
+    low, high = canonical_overrides(base), canonical_overrides(top)
+    taken = {normalise_header(h) for h in high.values()}
+    merged = {f: h for f, h in low.items() if f not in high and normalise_header(h) not in taken}
+    merged.update(high)
+    return merged

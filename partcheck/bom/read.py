@@ -21,12 +21,12 @@ from collections import Counter
 from dataclasses import dataclass, field
 from os import PathLike
 from pathlib import Path
-from typing import Final
+from typing import Any, Final, Mapping
 
 import pandas as pd
 
 from ..errors import BomError, PartcheckError
-from .columns import POSITIVE_FIT_HEADERS, canonical_overrides, map_header, normalise_header
+from .columns import POSITIVE_FIT_HEADERS, classify_header, map_header, merge_overrides, normalise_header
 from .values import read_content
 
 #: The largest number of references one range may expand to.
@@ -96,6 +96,36 @@ class Bom:
     encoding: str | None = None  # None for XLSX
     decimal_comma: bool = False
     sheet: str | None = None
+    column_index: dict[str, int] = field(default_factory=dict)  # canonical field → index into headers
+    # canonical field → how its column was chosen: "given" (an override), "name" (a synonym of the
+    # field), "partial" (the header only contains a synonym, "Supplier Part Number")
+    column_basis: dict[str, str] = field(default_factory=dict)
+
+    def column_report(self) -> list[str]:
+        """Which column each field was read from and which columns were ignored, as lines of text.
+
+        The first line is the summary, ``"BOM columns: ref ← 'Designator', part_number ← 'Mfr P/N';
+        ignored: 'Footprint'"`` (fields in column order); one more line follows for each column
+        taken by a partial name match, which is a guess the user should confirm.
+        """
+        index = dict(self.column_index)
+        for f, header in self.column_map.items():  # a Bom built by hand: find the header by its text
+            if f not in index and header in self.headers:
+                index[f] = self.headers.index(header)
+        used = sorted(index.items(), key=lambda item: (item[1], item[0]))
+        taken = set(index.values())
+        fields = ", ".join(f"{f} ← {self._header(i)!r}" for f, i in used) or "none"
+        ignored = ", ".join(repr(h) for i, h in enumerate(self.headers) if i not in taken) or "none"
+        lines = [f"BOM columns: {fields}; ignored: {ignored}"]
+        for f, i in used:
+            if self.column_basis.get(f) == "partial":
+                lines.append(f"BOM column {self._header(i)!r} was read as {f} because its name contains a {f} "
+                             f"header word; if that is wrong, name the column with --columns {f}=<header> "
+                             "or [bom_read] columns in the design file")
+        return lines
+
+    def _header(self, i: int) -> str:
+        return self.headers[i] if 0 <= i < len(self.headers) else f"column {i + 1}"
 
 
 # --------------------------------------------------------------------------------------------
@@ -304,14 +334,16 @@ def _find_header(grid, overrides, path) -> tuple[int, dict[str, int]]:
                            file=path)
         row = grid[best_i][1] if best_i >= 0 else next((c for _l, c in grid if any(x.strip() for x in c)), [])
         found = ", ".join(repr(c.strip()) for c in row if c.strip()) or "none"
-        wanted = f"column named {overrides['ref']!r} (from --columns)" if "ref" in overrides else \
+        wanted = f"column named {overrides['ref']!r} (from the column overrides)" if "ref" in overrides else \
             "reference column (Reference, Designator, RefDes, Ref, Parts)"
         raise BomError(f"found no {wanted}; the header row looks like: {found}. "
-                       "Name the column with --columns ref=<header>", file=path,
+                       "Name the column with --columns ref=<header> (or in the design file's [bom_read] "
+                       "columns)", file=path,
                        line=grid[best_i][0] if best_i >= 0 else None)
     missing = [f for f in overrides if f not in best_map]
     if missing:
-        raise BomError(f"--columns names {', '.join(repr(overrides[f]) for f in missing)} but the header row "
+        raise BomError(f"the column overrides (--columns or [bom_read] columns) name "
+                       f"{', '.join(repr(overrides[f]) for f in missing)} but the header row "
                        f"has {', '.join(repr(c) for c in grid[best_i][1] if c.strip())}",
                        file=path, line=grid[best_i][0])
     return best_i, best_map
@@ -361,6 +393,7 @@ def read_bom(
     sheet: str | None = None,
     columns: dict[str, str] | None = None,
     decimal_comma: bool | None = None,
+    defaults: Mapping[str, Any] | None = None,
 ) -> Bom:
     """Read a BOM file into a :class:`Bom`.
 
@@ -376,6 +409,12 @@ def read_bom(
         their aliases) that win over the synonym table.
     decimal_comma:
         Force (``True``) or forbid (``False``) decimal commas; detected when ``None``.
+    defaults:
+        The same settings from a design file's ``[bom_read]`` table (``{"columns": {...},
+        "sheet": ..., "decimal_comma": ...}``, see :attr:`partcheck.design.Design.bom_read`), used
+        where the arguments above are ``None``; column overrides are merged field by field
+        (:func:`~partcheck.bom.columns.merge_overrides`, the arguments win).  A ``sheet`` from
+        the defaults is ignored, with a notice, when the file is a text table.
 
     Raises
     ------
@@ -385,7 +424,15 @@ def read_bom(
     """
     p = Path(path)
     notices: list[str] = []
-    overrides = canonical_overrides(columns)
+    defaults = dict(defaults or {})
+    unknown = sorted(set(defaults) - {"columns", "sheet", "decimal_comma"})
+    if unknown:
+        raise TypeError(f"read_bom defaults: unknown setting {', '.join(unknown)}; expected columns, sheet, "
+                        "decimal_comma")
+    overrides = merge_overrides(defaults.get("columns"), columns)
+    if decimal_comma is None:
+        decimal_comma = defaults.get("decimal_comma")
+    default_sheet = defaults.get("sheet") if sheet is None else None
     try:
         data = p.read_bytes()
     except FileNotFoundError:
@@ -399,8 +446,11 @@ def read_bom(
         _not_a_table(data, p)
     delimiter = encoding = chosen_sheet = None
     if is_zip or p.suffix.lower() in (".xlsx", ".xlsm"):
-        grid, chosen_sheet = _xlsx_grid(p, sheet, notices)
+        grid, chosen_sheet = _xlsx_grid(p, sheet if sheet is not None else default_sheet, notices)
     else:
+        if default_sheet is not None:
+            notices.append(f"the design file's [bom_read] sheet {default_sheet!r} does not apply to a text table; "
+                           "ignored")
         if sheet is not None:
             raise BomError(f"--sheet {sheet!r} was given but this is a text table, not an XLSX workbook", file=p)
         text, encoding = _decode(data, p, notices)
@@ -423,6 +473,8 @@ def read_bom(
             notices.append(f"read numbers with decimal commas (cells such as {example!r}); "
                            "if that is wrong, read the file with --no-decimal-comma")
     column_map = {f: headers[i] for f, i in mapping.items()}
+    column_basis = {f: "given" if f in overrides else "name" if classify_header(headers[i])[1] >= 1.0 else "partial"
+                    for f, i in mapping.items()}
     # pandas keeps the body as a frame of plain strings (no type guessing, no NaN).
     width = max([len(headers)] + [len(c) for _l, c in body])
     names = [h if h else f"column {i + 1}" for i, h in enumerate(headers + [""] * (width - len(headers)))]
@@ -501,4 +553,4 @@ def read_bom(
         notices.append("the file starts with a UTF-8 byte-order mark (read as UTF-8)")
     return Bom(path=str(p), lines=lines, notices=notices, column_map=column_map, headers=unique,
                header_line=header_line, delimiter=delimiter, encoding=encoding, decimal_comma=bool(decimal_comma),
-               sheet=chosen_sheet)
+               sheet=chosen_sheet, column_index=dict(mapping), column_basis=column_basis)

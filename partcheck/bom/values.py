@@ -94,7 +94,16 @@ _PACKAGE_RE: Final = re.compile(
     re.IGNORECASE,
 )
 _TOLERANCE_RE: Final = re.compile(r"(?:±|\+/-|\+-)?\s*(\d+(?:[.,]\d+)?)\s*%")
-_FRACTION_WATT_RE: Final = re.compile(r"(?<![\d.])(\d+)\s*/\s*(\d+)\s*W\b")
+#: Fractional power ratings, "1/4W", "1/10 W", "1/8 Watt" (common practice for leaded and chip resistors).
+_FRACTION_WATT_RE: Final = re.compile(r"(?<![\d.])(\d+)\s*/\s*(\d+)\s*(?:W|w|[Ww]atts?)\b")
+#: The same written with a Unicode vulgar fraction: "¼W", "⅛ W".
+_VULGAR_WATT_RE: Final = re.compile(r"(?<![\d.])(\d*)([¼½¾⅛⅜⅝⅞⅒⅕])\s*(?:W|w|[Ww]atts?)\b")
+_VULGAR: Final = {"¼": 1 / 4, "½": 1 / 2, "¾": 3 / 4, "⅛": 1 / 8, "⅜": 3 / 8, "⅝": 5 / 8, "⅞": 7 / 8, "⅒": 1 / 10,
+                  "⅕": 1 / 5}
+#: A decimal number with a trailing R for ohms: "1.5R", "0.1R", "1,5R" (with decimal commas).  Common
+#: practice, not IEC 60062: the IEC 60062 code writes the R in place of the decimal point ("1R5",
+#: "R47", "4R7", "10R"), which :func:`partcheck.units.parse_quantity` reads itself.
+_TRAILING_R_RE: Final = re.compile(r"^([+-]?(?:\d+[.,]\d+|[.,]\d+))\s*[Rr]$")
 _SPLIT_DECIMAL_COMMA_RE: Final = re.compile(r"[\s/|;()\[\]_]+|,(?!\d)|(?<!\d),")
 _NUMBER_ONLY_RE: Final = re.compile(r"^[+-]?(?:\d+(?:[.,]\d*)?|[.,]\d+)(?:[eE][+-]?\d+)?$")
 
@@ -218,15 +227,38 @@ def _is_unit_word(word: str) -> bool:
     return False
 
 
+def ohm_text(token: str) -> str:
+    """``"1.5R"`` → ``"1.5Ω"``, ``"1,5R"`` → ``"1,5Ω"``: a trailing R after a decimal number is the ohm sign.
+
+    Other text is returned unchanged, IEC 60062 codes (``"4R7"``, ``"R47"``, ``"10R"``) included:
+    the quantity parser reads those as they are.  Whether a comma is a decimal point is left to
+    the parser (``decimal_comma``), so ``"1,5R"`` without decimal commas is refused like ``"0,47"``.
+    """
+    m = _TRAILING_R_RE.match(token.strip())
+    return f"{m.group(1)}Ω" if m else token
+
+
 def _kinds_of(token: str, decimal_comma: bool) -> dict[str, float]:
     """Every unit kind the token parses as, with its value."""
     found: dict[str, float] = {}
     for kind, _key in _KIND_KEYS:
         try:
-            found[kind] = parse_quantity(token, kind, decimal_comma=decimal_comma)
+            found[kind] = parse_quantity(ohm_text(token) if kind == "ohm" else token, kind,
+                                         decimal_comma=decimal_comma)
         except QuantityError:
             continue
     return found
+
+
+def _fraction_watts(text: str, values: dict[str, float]) -> str:
+    """Take ``"1/4W"``, ``"1/10 W"``, ``"¼W"`` out of ``text`` into ``values["p_rated"]`` [W]."""
+    for m in _FRACTION_WATT_RE.finditer(text):
+        if int(m.group(2)):
+            values.setdefault("p_rated", int(m.group(1)) / int(m.group(2)))
+    text = _FRACTION_WATT_RE.sub(" ", text)
+    for m in _VULGAR_WATT_RE.finditer(text):
+        values.setdefault("p_rated", (int(m.group(1)) if m.group(1) else 0) + _VULGAR[m.group(2)])
+    return _VULGAR_WATT_RE.sub(" ", text)
 
 
 def scan_text(text: str, primary_kind: str | None, decimal_comma: bool) -> tuple[dict[str, float], str | None,
@@ -249,10 +281,7 @@ def scan_text(text: str, primary_kind: str | None, decimal_comma: bool) -> tuple
         except QuantityError:
             pass
     text = _TOLERANCE_RE.sub(" ", text)
-    for m in _FRACTION_WATT_RE.finditer(text):
-        if int(m.group(2)):
-            values.setdefault("p_rated", int(m.group(1)) / int(m.group(2)))
-    text = _FRACTION_WATT_RE.sub(" ", text)
+    text = _fraction_watts(text, values)
     for tok in _tokens(text, decimal_comma):
         if dielectric is None and _DIELECTRIC_RE.match(tok):
             dielectric = dielectric_key(tok)

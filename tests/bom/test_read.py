@@ -126,7 +126,8 @@ def test_column_override(write):
 
 
 def test_override_naming_a_missing_header(write):
-    with pytest.raises(BomError, match="--columns names 'Designator' but the header row has 'Ref', 'Value'"):
+    with pytest.raises(BomError, match=r"\(--columns or \[bom_read\] columns\) name 'Designator' but the header "
+                                       r"row has 'Ref', 'Value'"):
         read_bom(write("bom.csv", "Ref,Value\nC1,1uF\n"), columns={"value": "Designator", "ref": "Ref"})
 
 
@@ -136,7 +137,8 @@ def test_missing_reference_column_lists_headers(write):
         read_bom(path)
     assert str(info.value) == (
         f"{path}, line 1: found no reference column (Reference, Designator, RefDes, Ref, Parts); the header row "
-        "looks like: 'Item', 'Value', 'Description'. Name the column with --columns ref=<header>"
+        "looks like: 'Item', 'Value', 'Description'. Name the column with --columns ref=<header> (or in the "
+        "design file's [bom_read] columns)"
     )
 
 
