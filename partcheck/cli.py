@@ -437,6 +437,9 @@ def match_command(
     with _cat_progress("matching BOM lines") if format == "table" else nullcontext() as progress:  # terminal only
         report = match_bom_file(bom, db=db, pins=parse_pins(pin), columns=parse_column_overrides(columns), sheet=sheet,
                                 decimal_comma=decimal_comma, progress=progress)
+    if format == "table":
+        for line in report.bom.column_report():
+            err.print(Text(line))
     if format == "json":
         sys.stdout.write(_json.dumps(report.to_dict(), indent=2, ensure_ascii=False) + "\n")
     elif format == "csv":

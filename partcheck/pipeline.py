@@ -325,7 +325,8 @@ def stress_report(design_path: str | Path | Design, *, bom: str | Path | None = 
         own = catalog is None
         cat = open_catalog(db, create=False) if own else catalog
         try:
-            prep = _prepare(design, read_bom(bom_path), cat, dict(design.pins), load_policy(DEFAULT_POLICY))
+            prep = _prepare(design, read_bom(bom_path, defaults=design.bom_read), cat, dict(design.pins),
+                            load_policy(DEFAULT_POLICY))
         finally:
             if own:
                 cat.close()
@@ -410,6 +411,7 @@ def check(design_path: str | Path | Design, *, bom: str | Path | None = None, po
             cat.close()
 
     notes = list(stress_result.notes) + vf_notes + _efficiency_notes(design, ctx) + _regulation_notes(design, items) + ctx.notes
+    notes += bom_data.column_report()[:1]
     result = CheckResult(
         design=design.name, policy=pol.name, policy_origin=origin, verdict=verdict(findings, pol),
         findings=[_finding_dict(f) for f in findings],
@@ -428,6 +430,7 @@ def check(design_path: str | Path | Design, *, bom: str | Path | None = None, po
         trace={"tool_version": __version__, "date": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
                "command": command or "", "design_path": design.file, "design_sha256": _sha256(design.path),
                "bom_path": str(bom_path), "bom_sha256": _sha256(Path(bom_path)), "policy": pol.name,
+               "bom_read": _clean({"options": dict(bom_options or {}), "defaults": dict(design.bom_read)}),
                "policy_origin": origin, "policy_sha256": _sha256(policy_path), "catalog": catalog_name,
                "catalog_sha256": catalog_hash, "waiver_date": today.isoformat()},
     )
@@ -684,7 +687,8 @@ def write_annotated_bom(result: CheckResult, path: str | Path) -> Path:
     from .bom.export import write_annotated_bom as _write
 
     check_extension(path)
-    bom = read_bom(result.trace["bom_path"])
+    how = result.trace.get("bom_read") or {}  # read the BOM as the check did
+    bom = read_bom(result.trace["bom_path"], **(how.get("options") or {}), defaults=how.get("defaults") or None)
     by_line = {row["bom_line"]: row for row in result.parts}
     alternative_of: dict[str, str] = {}
     for f in result.findings:

@@ -103,10 +103,14 @@ def test_unknown_column_lists_valid_names_and_suggests_the_closest(tmp_path, cat
     assert catalog.count() == 12
 
 
-def test_semicolon_file_gets_a_hint(tmp_path, catalog):
-    path = csv_file(tmp_path, "N1;switch\n", head="part_number;category\n")
+def test_semicolon_csv_is_read_and_a_semicolon_tsv_gets_a_hint(tmp_path, catalog):
+    """A .csv is sniffed for ',', ';' or tab; a .tsv is tab-separated by name, so ';' there is a hint."""
+    catalog.import_file(csv_file(tmp_path, "N1;switch\n", head="part_number;category\n"))
+    assert catalog.get("N1").category == "switch"
+    tsv = tmp_path / "parts.tsv"
+    tsv.write_text("part_number;category\nN2;switch\n", encoding="utf-8")
     with pytest.raises(CatalogInputError, match="the file seems to be separated by ';'"):
-        catalog.import_file(path)
+        catalog.import_file(tsv)
 
 
 def test_missing_required_column(tmp_path, catalog):
