@@ -143,7 +143,7 @@ _FIELD_LIST: Final[tuple[FieldSpec, ...]] = (
     _rating("ripple_rise", "K", ("capacitor",), "core temperature rise at rated ripple [K]"),
     _rating("life_hours", "h", ("capacitor",), "rated life at life_temp [h]"),
     _temp("life_temp", ("capacitor",), "temperature at which life_hours is rated [°C]"),
-    _text("case_size", "case size (0805, 1206, 8x11.5 ...)", ("capacitor",)),
+    _text("case_size", "case size (0805, 1206, 8x11.5 ...)", ("capacitor", "resistor", "magnetic")),
     # resistor
     _rating("resistance", "ohm", ("resistor",), "nominal resistance [Ω]"),
     _rating("p_rated", "W", ("resistor",), "rated power at or below t_knee [W]"),
