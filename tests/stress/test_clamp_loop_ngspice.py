@@ -54,7 +54,6 @@ of CPU, two at a time (about 35 s of wall time).
 from __future__ import annotations
 
 import math
-import os
 import re
 import shutil
 import subprocess
@@ -65,6 +64,7 @@ import numpy as np
 import pytest
 
 from partcheck.stress.flyback import DCM, OperatingPoints, solve
+from tests.conftest import require_tool
 
 TEMPLATE = Path(__file__).resolve().parents[1] / "reference" / "flyback" / "clamp_loop.cir"
 
@@ -92,11 +92,7 @@ CASES = {
 
 def _ngspice() -> str:
     path = shutil.which("ngspice")
-    if path is None:
-        message = "ngspice is missing (Debian package ngspice; `bash tests/run-all.sh` installs it)"
-        if os.environ.get("CI"):
-            pytest.fail(message)
-        pytest.skip(message)
+    require_tool(path is not None, "ngspice (Debian package ngspice)")  # fails under CI, skips elsewhere
     return path
 
 

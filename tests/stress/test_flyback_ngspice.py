@@ -19,7 +19,6 @@ DCM.  The engine gets Rc and Cc and must find the settled clamp voltage and the 
 
 from __future__ import annotations
 
-import os
 import re
 import shutil
 import subprocess
@@ -29,6 +28,7 @@ import numpy as np
 import pytest
 
 from partcheck.stress.flyback import MODE_NAMES, OperatingPoints, solve
+from tests.conftest import require_tool
 
 TEMPLATE = Path(__file__).resolve().parents[1] / "reference" / "flyback" / "open_loop.cir"
 
@@ -49,11 +49,7 @@ CASES = {
 
 def _ngspice() -> str:
     path = shutil.which("ngspice")
-    if path is None:
-        message = "ngspice is missing (Debian package ngspice; `bash tests/run-all.sh` installs it)"
-        if os.environ.get("CI"):
-            pytest.fail(message)
-        pytest.skip(message)
+    require_tool(path is not None, "ngspice (Debian package ngspice)")  # fails under CI, skips elsewhere
     return path
 
 

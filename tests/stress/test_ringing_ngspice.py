@@ -29,7 +29,6 @@ conservative there while ``rectifier_ring`` fed with the measured step must matc
 from __future__ import annotations
 
 import math
-import os
 import re
 import shutil
 import subprocess
@@ -45,6 +44,7 @@ from partcheck.stress.ringing import (
     rectifier_ring,
     snubber_resistor_power,
 )
+from tests.conftest import require_tool
 
 TEMPLATE = Path(__file__).resolve().parents[1] / "reference" / "ringing" / "flyback_ring.cir"
 
@@ -81,11 +81,7 @@ CASES = {
 
 def _ngspice() -> str:
     path = shutil.which("ngspice")
-    if path is None:
-        message = "ngspice is missing (Debian package ngspice; `bash tests/run-all.sh` installs it)"
-        if os.environ.get("CI"):
-            pytest.fail(message)
-        pytest.skip(message)
+    require_tool(path is not None, "ngspice (Debian package ngspice)")  # fails under CI, skips elsewhere
     return path
 
 
