@@ -791,12 +791,7 @@ class _Source:
         if parts[0] != "rules":  # a policy-level table: [lifecycle] obsolete = ...
             return self._line_in_table(parts[0], parts[1])
         table, key = (".".join(parts[:2]), parts[2]) if len(parts) > 2 else (dotted, None)
-        start = None
-        for no, line in enumerate(self.lines, 1):
-            m = self._HEADER.match(line)
-            if m and self._norm(m.group(1)) == table:
-                start = no
-                break
+        start = self._header_line(table)
         if start is None:
             # dotted keys or inline tables: the first line naming the id
             rule_id = parts[1]
@@ -806,31 +801,32 @@ class _Source:
             return None
         if key is None:
             return start
+        return self._key_below(start, key) or start
+
+    def _header_line(self, table: str) -> int | None:
+        """1-based line of the header ``[table]``, or None."""
+        for no, line in enumerate(self.lines, 1):
+            m = self._HEADER.match(line)
+            if m and self._norm(m.group(1)) == table:
+                return no
+        return None
+
+    def _key_below(self, start: int, key: str) -> int | None:
+        """1-based line of ``key = ...`` in the table whose header is on line ``start``, or None."""
         for no in range(start + 1, len(self.lines) + 1):
             line = self.lines[no - 1]
             if self._HEADER.match(line):
                 break
             if re.match(rf"^\s*[\"']?{re.escape(key)}[\"']?\s*=", line):
                 return no
-        return start
+        return None
 
     def _line_in_table(self, table: str, key: str) -> int | None:
         """Line of ``key`` in the top-level table ``[table]`` (or of ``table.key = ...`` / an inline
         ``table = {...}`` before the first header)."""
-        start = None
-        for no, line in enumerate(self.lines, 1):
-            m = self._HEADER.match(line)
-            if m and self._norm(m.group(1)) == table:
-                start = no
-                break
+        start = self._header_line(table)
         if start is not None:
-            for no in range(start + 1, len(self.lines) + 1):
-                line = self.lines[no - 1]
-                if self._HEADER.match(line):
-                    break
-                if re.match(rf"^\s*[\"']?{re.escape(key)}[\"']?\s*=", line):
-                    return no
-            return start
+            return self._key_below(start, key) or start
         for no, line in enumerate(self.lines, 1):
             if self._HEADER.match(line):
                 break
